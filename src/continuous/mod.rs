@@ -1,0 +1,1 @@
+//! continuous stage (to be filled).

@@ -1,0 +1,1 @@
+//! demo stage (to be filled).

@@ -1,0 +1,1 @@
+//! expansion stage (to be filled).

@@ -1,0 +1,1 @@
+//! factors stage (to be filled).

@@ -1,0 +1,1 @@
+//! input stage (to be filled).

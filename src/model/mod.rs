@@ -1,0 +1,1 @@
+//! model stage (to be filled).

@@ -1,0 +1,1 @@
+//! output stage (to be filled).

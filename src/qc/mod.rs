@@ -1,0 +1,1 @@
+//! qc stage (to be filled).

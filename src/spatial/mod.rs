@@ -1,0 +1,1 @@
+//! spatial stage (to be filled).
