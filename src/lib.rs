@@ -23,5 +23,6 @@ pub mod input;
 pub mod model;
 pub mod output;
 pub mod pipeline;
+pub mod progress;
 pub mod qc;
 pub mod spatial;

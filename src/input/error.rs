@@ -1,0 +1,64 @@
+//! Errors of the reading layer. Each fatal problem names the file (and column) to fix.
+
+use std::path::PathBuf;
+
+/// A problem that stops the run: exit code 2, no outputs.
+#[derive(Debug, thiserror::Error)]
+pub enum InputError {
+    /// A required file is absent.
+    #[error("{path}: required file is missing")]
+    MissingFile {
+        /// File, relative to the study folder.
+        path: PathBuf,
+    },
+    /// The counts folder holds no `*.csv` or `*.csv.gz` file.
+    #[error("{path}: no count file (*.csv or *.csv.gz) found")]
+    NoCountFiles {
+        /// The counts folder.
+        path: PathBuf,
+    },
+    /// A required column is absent from the header row.
+    #[error("{path}: required column `{column}` is missing from the header row")]
+    MissingColumn {
+        /// File, relative to the study folder.
+        path: PathBuf,
+        /// The column name.
+        column: String,
+    },
+    /// The file is not comma-separated text with a header row.
+    #[error("{path}: not a CSV file ({reason})")]
+    NotCsv {
+        /// File, relative to the study folder.
+        path: PathBuf,
+        /// What gave it away.
+        reason: String,
+    },
+    /// The file could not be read to its end.
+    #[error("{path}: cannot be read to its end ({reason})")]
+    Unreadable {
+        /// File, relative to the study folder.
+        path: PathBuf,
+        /// The underlying error.
+        reason: String,
+    },
+    /// No segment survived reading.
+    #[error("{path}: no segment survives reading (see rejected_rows.csv reasons above)")]
+    NoSegments {
+        /// The segments file.
+        path: PathBuf,
+    },
+    /// No count row survived reading.
+    #[error("{path}: no count row survives reading")]
+    NoCountRows {
+        /// The counts folder.
+        path: PathBuf,
+    },
+    /// study.toml is not valid.
+    #[error("{path}: {reason}")]
+    BadConfig {
+        /// The settings file.
+        path: PathBuf,
+        /// What is wrong and where.
+        reason: String,
+    },
+}

@@ -1,0 +1,231 @@
+//! Reading the optional `history.csv` and `toll.csv`.
+
+use std::path::Path;
+
+use chrono::NaiveDate;
+
+use super::csvfile::{cell, parse_count, read_error, show, CsvFile};
+use super::error::InputError;
+use super::network::parse_number;
+use super::rejects::RejectedRow;
+use super::FileSummary;
+use crate::model::{Network, SegmentId};
+
+/// Relative name of the history file.
+pub const HISTORY_FILE: &str = "history.csv";
+/// Relative name of the toll file.
+pub const TOLL_FILE: &str = "toll.csv";
+
+/// A published AADT of an earlier year.
+#[derive(Debug, Clone, PartialEq)]
+pub struct HistoryRecord {
+    /// Segment index in the network.
+    pub segment: usize,
+    /// Year the figure was published for.
+    pub year: i32,
+    /// Published AADT, vehicles/day.
+    pub aadt: f64,
+}
+
+/// Toll vehicle groups of the contract.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum VehicleGroup {
+    /// Classes 1-3.
+    Light,
+    /// Classes 4-13.
+    Heavy,
+    /// Every class.
+    All,
+}
+
+impl VehicleGroup {
+    /// The contract's spelling.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            VehicleGroup::Light => "light",
+            VehicleGroup::Heavy => "heavy",
+            VehicleGroup::All => "all",
+        }
+    }
+}
+
+/// One billing row of `toll.csv`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TollRecord {
+    /// Line in toll.csv.
+    pub line: u64,
+    /// Segment index in the network.
+    pub segment: usize,
+    /// First billed day.
+    pub from_date: NaiveDate,
+    /// Last billed day (inclusive).
+    pub to_date: NaiveDate,
+    /// Vehicle group billed.
+    pub group: VehicleGroup,
+    /// Passages billed, both directions.
+    pub billed_vehicles: u64,
+}
+
+fn open_optional(root: &Path, name: &str) -> Result<Option<CsvFile>, InputError> {
+    let path = root.join(name);
+    if !path.exists() {
+        return Ok(None);
+    }
+    CsvFile::open(&path, name).map(Some)
+}
+
+fn segment_of(
+    net: &Network,
+    raw: Option<&[u8]>,
+) -> Result<usize, (&'static str, String, &'static str)> {
+    let raw = raw.ok_or(("segment_id", String::new(), "segment_id is empty"))?;
+    net.segment(&SegmentId(show(raw))).ok_or((
+        "segment_id",
+        show(raw),
+        "unknown segment (not in network/segments.csv or rejected there)",
+    ))
+}
+
+/// Reads `history.csv` when present.
+pub fn read_history(
+    root: &Path,
+    net: &Network,
+    rejects: &mut Vec<RejectedRow>,
+    files: &mut Vec<FileSummary>,
+) -> Result<Vec<HistoryRecord>, InputError> {
+    let Some(mut f) = open_optional(root, HISTORY_FILE)? else {
+        return Ok(Vec::new());
+    };
+    let (c_seg, c_year, c_aadt) = (
+        f.require("segment_id")?,
+        f.require("year")?,
+        f.require("aadt")?,
+    );
+    let mut out = Vec::new();
+    let mut summary = FileSummary::new(HISTORY_FILE);
+    let mut rec = csv::ByteRecord::new();
+    while f
+        .reader
+        .read_byte_record(&mut rec)
+        .map_err(|e| read_error(Path::new(HISTORY_FILE), e))?
+    {
+        let line = rec.position().map_or(0, |p| p.line());
+        summary.rows += 1;
+        let parsed = (|| {
+            let segment = segment_of(net, cell(&rec, c_seg))?;
+            let year = cell(&rec, c_year)
+                .and_then(|v| std::str::from_utf8(v).ok()?.parse::<i32>().ok())
+                .filter(|y| (1900..=2200).contains(y))
+                .ok_or((
+                    "year",
+                    rec.get(c_year).map(show).unwrap_or_default(),
+                    "year is not a whole year",
+                ))?;
+            let aadt = cell(&rec, c_aadt)
+                .and_then(parse_number)
+                .filter(|v| *v > 0.0)
+                .ok_or((
+                    "aadt",
+                    rec.get(c_aadt).map(show).unwrap_or_default(),
+                    "aadt is not a number > 0",
+                ))?;
+            Ok(HistoryRecord {
+                segment,
+                year,
+                aadt,
+            })
+        })();
+        match parsed {
+            Ok(h) => out.push(h),
+            Err((col, val, why)) => {
+                rejects.push(RejectedRow::new(HISTORY_FILE, line, col, &val, why));
+                summary.rejected += 1;
+            }
+        }
+    }
+    files.push(summary);
+    Ok(out)
+}
+
+fn parse_date(raw: Option<&[u8]>) -> Option<NaiveDate> {
+    NaiveDate::parse_from_str(std::str::from_utf8(raw?).ok()?, "%Y-%m-%d").ok()
+}
+
+/// Reads `toll.csv` when present.
+pub fn read_toll(
+    root: &Path,
+    net: &Network,
+    rejects: &mut Vec<RejectedRow>,
+    files: &mut Vec<FileSummary>,
+) -> Result<Option<Vec<TollRecord>>, InputError> {
+    let Some(mut f) = open_optional(root, TOLL_FILE)? else {
+        return Ok(None);
+    };
+    let c_seg = f.require("segment_id")?;
+    let c_from = f.require("from_date")?;
+    let c_to = f.require("to_date")?;
+    let c_group = f.require("vehicle_group")?;
+    let c_billed = f.require("billed_vehicles")?;
+    let mut out = Vec::new();
+    let mut summary = FileSummary::new(TOLL_FILE);
+    let mut rec = csv::ByteRecord::new();
+    while f
+        .reader
+        .read_byte_record(&mut rec)
+        .map_err(|e| read_error(Path::new(TOLL_FILE), e))?
+    {
+        let line = rec.position().map_or(0, |p| p.line());
+        summary.rows += 1;
+        let raw = |c: usize| rec.get(c).map(show).unwrap_or_default();
+        let parsed = (|| {
+            let segment = segment_of(net, cell(&rec, c_seg))?;
+            let from_date = parse_date(cell(&rec, c_from)).ok_or((
+                "from_date",
+                raw(c_from),
+                "from_date is not an ISO date (YYYY-MM-DD)",
+            ))?;
+            let to_date = parse_date(cell(&rec, c_to)).ok_or((
+                "to_date",
+                raw(c_to),
+                "to_date is not an ISO date (YYYY-MM-DD)",
+            ))?;
+            if to_date < from_date {
+                return Err(("to_date", raw(c_to), "to_date is before from_date"));
+            }
+            let group = match cell(&rec, c_group) {
+                Some(b"light") => VehicleGroup::Light,
+                Some(b"heavy") => VehicleGroup::Heavy,
+                Some(b"all") => VehicleGroup::All,
+                _ => {
+                    return Err((
+                        "vehicle_group",
+                        raw(c_group),
+                        "vehicle_group is not `light`, `heavy` or `all`",
+                    ))
+                }
+            };
+            let billed = cell(&rec, c_billed)
+                .ok_or(("billed_vehicles", String::new(), "billed_vehicles is empty"))
+                .and_then(|v| {
+                    parse_count(v).map_err(|e| ("billed_vehicles", show(v), e.reason()))
+                })?;
+            Ok(TollRecord {
+                line,
+                segment,
+                from_date,
+                to_date,
+                group,
+                billed_vehicles: billed as u64,
+            })
+        })();
+        match parsed {
+            Ok(t) => out.push(t),
+            Err((col, val, why)) => {
+                rejects.push(RejectedRow::new(TOLL_FILE, line, col, &val, why));
+                summary.rejected += 1;
+            }
+        }
+    }
+    files.push(summary);
+    Ok(Some(out))
+}
