@@ -1,1 +1,73 @@
-//! Command-line interface.
+//! Command-line interface: commands and options in the trade's words.
+
+use std::path::PathBuf;
+
+use clap::{Parser, Subcommand, ValueEnum};
+
+/// Annual traffic statistics for every segment of a road network.
+///
+/// Reads a study folder (network, stations, permanent and short counts), checks the counts,
+/// derives expansion factors from the permanent counters, expands the short counts, estimates
+/// uncounted segments, and writes AADT with a 95 % interval, class shares and design-hour
+/// figures for every segment.
+///
+/// Exit codes: 0 done and every input row used; 1 done with some rows rejected (see
+/// rejected_rows.csv); 2 could not run.
+#[derive(Debug, Parser)]
+#[command(name = "roadtally", version, about, long_about)]
+pub struct Cli {
+    /// The command.
+    #[command(subcommand)]
+    pub command: Command,
+    /// No progress bars and no summary on the terminal.
+    #[arg(long, short, global = true)]
+    pub quiet: bool,
+}
+
+/// Size of a generated demo study.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum Size {
+    /// About 300 segments, 10 permanent counters, 100 short counts.
+    Small,
+    /// About 3,000 segments, 60 permanent counters, 1,000 short counts.
+    Large,
+    /// 400 permanent counters x 2 directions of hourly records for a year (~7 million rows).
+    Bench,
+}
+
+/// The commands.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Read a study and check its counts: prints rows read and rejected per file and reason,
+    /// stations, and station-days accepted, flagged and rejected by quality rule. Writes nothing.
+    Check {
+        /// The study folder (network/, stations.csv, counts/ ...).
+        study: PathBuf,
+        /// Study year (overrides `year` in study.toml).
+        #[arg(long)]
+        year: Option<i32>,
+    },
+    /// Run the whole job: read, check, factor, expand, estimate, and write the tables.
+    Run {
+        /// The study folder.
+        study: PathBuf,
+        /// Folder the tables are written to (created if absent).
+        #[arg(long, short)]
+        out: PathBuf,
+        /// Study year (overrides `year` in study.toml).
+        #[arg(long)]
+        year: Option<i32>,
+    },
+    /// Generate an invented demo study with known true volumes and injected faults.
+    Demo {
+        /// Folder to write the study into.
+        #[arg(long, short)]
+        out: PathBuf,
+        /// Random seed; the same seed gives byte-identical files.
+        #[arg(long, default_value_t = 7)]
+        seed: u64,
+        /// Size of the study.
+        #[arg(long, value_enum, default_value_t = Size::Small)]
+        size: Size,
+    },
+}

@@ -1,1 +1,50 @@
-fn main() {}
+//! Thin binary: parse arguments, build the configuration, run the pipeline, map the outcome
+//! to the contract's exit code (0 all rows used, 1 some rejected, 2 could not run).
+
+use std::process::ExitCode;
+
+use clap::Parser;
+use roadtally::cli::{Cli, Command};
+use roadtally::config::Config;
+use roadtally::pipeline;
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    match dispatch(&cli) {
+        Ok(code) => ExitCode::from(code),
+        Err(e) => {
+            eprintln!("roadtally: error: {e:#}");
+            ExitCode::from(2)
+        }
+    }
+}
+
+fn dispatch(cli: &Cli) -> anyhow::Result<u8> {
+    match &cli.command {
+        Command::Check { study, year } => {
+            let config = Config::new(study, None, *year, cli.quiet)?;
+            let report = pipeline::check(&config)?;
+            if !cli.quiet {
+                print!("{report}");
+            }
+            Ok(report.exit_code() as u8)
+        }
+        Command::Run { study, out, year } => {
+            let config = Config::new(study, Some(out), *year, cli.quiet)?;
+            let report = pipeline::run(&config)?;
+            if !cli.quiet {
+                print!("{}", report.check);
+                println!(
+                    "\nwrote {} files to {}",
+                    report.written.len(),
+                    out.display()
+                );
+            }
+            Ok(report.check.exit_code() as u8)
+        }
+        Command::Demo { out, seed, size } => {
+            let _ = (out, seed, size);
+            anyhow::bail!("the demo generator is not built yet")
+        }
+    }
+}

@@ -1,0 +1,179 @@
+//! One table model for every writer (CSV, workbook, GeoJSON, HTML).
+
+/// How a numeric column is shown.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Format {
+    /// Text as given.
+    Text,
+    /// Whole number (volumes, counts).
+    Integer,
+    /// Fixed decimals (factors: 3, distances: 3 ...).
+    Decimal(u8),
+    /// A share 0..1, written with 4 decimals in CSV and as a percentage in the workbook.
+    Share,
+}
+
+/// A column: its name (with the unit where there is one) and how values are shown.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Column {
+    /// Header text; the contract's names are kept exactly.
+    pub name: String,
+    /// Unit, shown in the workbook's header row and in the report ("veh/day", "km", "").
+    pub unit: &'static str,
+    /// Number format.
+    pub format: Format,
+}
+
+impl Column {
+    /// A column.
+    pub fn new(name: &str, unit: &'static str, format: Format) -> Column {
+        Column {
+            name: name.to_string(),
+            unit,
+            format,
+        }
+    }
+}
+
+/// One cell.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Cell {
+    /// Nothing supports a figure.
+    Empty,
+    /// Text.
+    Text(String),
+    /// A whole number.
+    Int(i64),
+    /// A real number, shown with its column's format.
+    Num(f64),
+}
+
+impl From<&str> for Cell {
+    fn from(s: &str) -> Cell {
+        Cell::Text(s.to_string())
+    }
+}
+
+impl From<String> for Cell {
+    fn from(s: String) -> Cell {
+        Cell::Text(s)
+    }
+}
+
+impl From<f64> for Cell {
+    fn from(v: f64) -> Cell {
+        if v.is_finite() {
+            Cell::Num(v)
+        } else {
+            Cell::Empty
+        }
+    }
+}
+
+impl From<Option<f64>> for Cell {
+    fn from(v: Option<f64>) -> Cell {
+        v.map_or(Cell::Empty, Cell::from)
+    }
+}
+
+impl From<u64> for Cell {
+    fn from(v: u64) -> Cell {
+        Cell::Int(v as i64)
+    }
+}
+
+impl From<i64> for Cell {
+    fn from(v: i64) -> Cell {
+        Cell::Int(v)
+    }
+}
+
+impl From<usize> for Cell {
+    fn from(v: usize) -> Cell {
+        Cell::Int(v as i64)
+    }
+}
+
+impl From<u32> for Cell {
+    fn from(v: u32) -> Cell {
+        Cell::Int(v as i64)
+    }
+}
+
+impl From<i32> for Cell {
+    fn from(v: i32) -> Cell {
+        Cell::Int(v as i64)
+    }
+}
+
+/// A named table: a file stem (`segment_statistics`), a title for the workbook and report,
+/// columns and rows.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Table {
+    /// File stem and sheet name.
+    pub name: String,
+    /// One-line description.
+    pub title: String,
+    /// Columns.
+    pub columns: Vec<Column>,
+    /// Rows, each as long as `columns`.
+    pub rows: Vec<Vec<Cell>>,
+}
+
+impl Table {
+    /// An empty table.
+    pub fn new(name: &str, title: &str, columns: Vec<Column>) -> Table {
+        Table {
+            name: name.to_string(),
+            title: title.to_string(),
+            columns,
+            rows: Vec::new(),
+        }
+    }
+
+    /// Appends a row; panics in debug builds when its length is wrong (a programming error).
+    pub fn push(&mut self, row: Vec<Cell>) {
+        debug_assert_eq!(
+            row.len(),
+            self.columns.len(),
+            "row length in table {}",
+            self.name
+        );
+        self.rows.push(row);
+    }
+
+    /// Index of a column by name.
+    pub fn column(&self, name: &str) -> Option<usize> {
+        self.columns.iter().position(|c| c.name == name)
+    }
+}
+
+/// The text of a cell as CSV writes it: fixed decimals, no exponent, so outputs are
+/// byte-identical across runs and platforms.
+pub fn cell_text(cell: &Cell, format: Format) -> String {
+    match cell {
+        Cell::Empty => String::new(),
+        Cell::Text(s) => s.clone(),
+        Cell::Int(v) => v.to_string(),
+        Cell::Num(v) => match format {
+            Format::Integer => format!("{:.0}", v.round()),
+            Format::Decimal(d) => format!("{:.*}", d as usize, v),
+            Format::Share => format!("{v:.4}"),
+            Format::Text => format!("{v}"),
+        },
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn numbers_print_with_their_column_format() {
+        assert_eq!(cell_text(&Cell::Num(1234.5), Format::Integer), "1235");
+        assert_eq!(cell_text(&Cell::Num(0.123456), Format::Decimal(3)), "0.123");
+        assert_eq!(cell_text(&Cell::Num(0.1), Format::Share), "0.1000");
+        assert_eq!(cell_text(&Cell::from(f64::NAN), Format::Share), "");
+        assert_eq!(cell_text(&Cell::Int(-3), Format::Integer), "-3");
+    }
+}
