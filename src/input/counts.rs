@@ -194,7 +194,7 @@ fn read_one(
         }
         summary.rows += 1;
         let pos = rec.position().expect("records carry a position");
-        if summary.rows % 65_536 == 0 {
+        if summary.rows.is_multiple_of(65_536) {
             bar.inc(pos.byte().saturating_sub(last_bytes));
             last_bytes = pos.byte();
         }
@@ -381,18 +381,15 @@ fn conflicting(d: Direction) -> &'static [Direction] {
 fn fold(store: &mut CountStore, stations: &StationList, row: CountRow) -> Result<(), Fault> {
     let date = row.stamp.local.date();
     let days = &mut store.days[row.station];
-    if !days.contains_key(&date) {
-        // A day is only created by a row that lands in it, so no day is ever empty.
-        let fresh = DayCounts::new(row.station, date, row.stamp.offset_min);
-        days.insert(date, fresh);
-        let result = fold_into(days.get_mut(&date).expect("just inserted"), &row);
-        if result.is_err() {
-            days.remove(&date);
+    match days.entry(date) {
+        std::collections::btree_map::Entry::Occupied(mut e) => fold_into(e.get_mut(), &row)?,
+        std::collections::btree_map::Entry::Vacant(e) => {
+            // A day is only created by a row that lands in it, so no day is ever empty.
+            let mut fresh = DayCounts::new(row.station, date, row.stamp.offset_min);
+            fold_into(&mut fresh, &row)?;
+            e.insert(fresh);
         }
-        return result.map(|()| count_year(store, stations, &row));
     }
-    let day = days.get_mut(&date).expect("checked above");
-    fold_into(day, &row)?;
     count_year(store, stations, &row);
     Ok(())
 }
