@@ -1,1 +1,371 @@
-//! expansion stage (to be filled).
+//! Short counts to AADT, with a 95 % interval.
+//!
+//! # Method
+//! Each complete local day *d* of a short count gives one estimate (TMG factor application,
+//! FHWA Traffic Monitoring Guide 2016 §3, from memory; the same form as its Eq. 3-1):
+//!
+//! ```text
+//! AADT_d = V_d × F(dow_d, month_d) × A × G
+//!   V_d  two-way volume of the day (vehicles; or axle hits / 2 for an axle counter)
+//!   F    day-of-week-by-month factor of the segment's factor group (AADT / MADW, TMG convention:
+//!        factors multiply a count)
+//!   A    axle-correction factor of the group (vehicles per axle pair), axle counts only
+//!   G    growth factor from the count year to the study year
+//! ```
+//! and the count's AADT is the mean of its days' estimates. **Partial days** at the start and
+//! end of a count are not used as days. When a count has no complete local day at all (a 24-hour
+//! count started mid-morning), its hours are folded onto one clock day: each clock hour is taken
+//! from the first day that has it, provided every clock hour is present once; that synthetic day
+//! takes the factor of the day holding most of its hours. Otherwise the count is not expanded and
+//! the reason is reported.
+//!
+//! # Interval
+//! The error of an expanded count is modelled in log space as the sum of independent parts:
+//!
+//! ```text
+//! s² = s_f²·(1 + 1/n_g) + s_d²/n_days + (age · s_g)² + s_a²
+//!   s_f   between-station coefficient of variation of the group's factor for that cell
+//!   n_g   stations behind the group factor
+//!   s_d   day-to-day coefficient of variation of a single day about its month-weekday mean
+//!   s_g   year-to-year coefficient of variation of growth (per year of age)
+//!   s_a   coefficient of variation of the axle-correction factor (axle counts only)
+//! ```
+//! and the 95 % interval is `AADT · exp(±1.96 · c · s)`, where the scale *c* is calibrated by
+//! `roadtally calibrate`, which draws simulated short counts from every permanent counter and
+//! expands them with factors computed without that counter (see [`calibration`]).
+//!
+//! # Units
+//! Volumes in vehicles per day; coefficients of variation as fractions (0.10 = 10 %).
+//!
+//! # References
+//! FHWA *Traffic Monitoring Guide* (2016 and 2022), Chapter 3 (factoring of short counts; from
+//! memory). AASHTO *Guidelines for Traffic Data Programs* (2009; from memory).
+
+pub mod calibration;
+
+use chrono::{Datelike, NaiveDate};
+use serde::{Deserialize, Serialize};
+
+/// Settings of the expansion stage (`[expansion]` in study.toml).
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+#[serde(default, deny_unknown_fields)]
+pub struct ExpansionParams {
+    /// Scale applied to the modelled log-space standard deviation so that the 95 % intervals
+    /// cover 95 % of simulated counts. Default 1.0 until `roadtally calibrate` measures it;
+    /// `run` uses the calibration it computes on the study itself when this is not set.
+    pub interval_scale: Option<f64>,
+    /// Between-station factor CV used when a group has fewer than two stations.
+    /// Default 0.10 (common practice: TMG groups target ±10 % precision).
+    pub default_factor_cv: f64,
+    /// Day-to-day CV used when the group gives none. Default 0.10 (common practice).
+    pub default_day_cv: f64,
+    /// Year-to-year CV of growth per year of a count's age. Default 0.03 (common practice).
+    pub growth_cv_per_year: f64,
+    /// Count lengths, hours, simulated by the calibration. Default 24, 48 and 72.
+    pub calibration_hours: Vec<u32>,
+    /// Start days tried per permanent counter and count length. Default 40.
+    pub calibration_starts: usize,
+}
+
+impl Default for ExpansionParams {
+    fn default() -> Self {
+        ExpansionParams {
+            interval_scale: None,
+            default_factor_cv: 0.10,
+            default_day_cv: 0.10,
+            growth_cv_per_year: 0.03,
+            calibration_hours: vec![24, 48, 72],
+            calibration_starts: 40,
+        }
+    }
+}
+
+/// Normal quantile for a two-sided 95 % interval.
+pub const Z95: f64 = 1.959_963_984_540_054;
+
+/// Factors of one factor group as the expansion needs them.
+#[derive(Debug, Clone, PartialEq)]
+pub struct GroupFactors {
+    /// Day-of-week (Monday = 0) by month (January = 0) factor: AADT / MADW.
+    pub dow_month: [[f64; 12]; 7],
+    /// Between-station CV of each cell's factor (None where fewer than two stations).
+    pub dow_month_cv: [[Option<f64>; 12]; 7],
+    /// Day-to-day CV of a single day about its month-weekday mean, pooled over the group.
+    pub day_cv: Option<f64>,
+    /// Stations behind the factors.
+    pub stations: usize,
+}
+
+impl GroupFactors {
+    /// The factor for a date.
+    pub fn factor(&self, date: NaiveDate) -> f64 {
+        self.dow_month[date.weekday().num_days_from_monday() as usize][date.month0() as usize]
+    }
+
+    /// The between-station CV for a date's cell.
+    pub fn cv(&self, date: NaiveDate) -> Option<f64> {
+        self.dow_month_cv[date.weekday().num_days_from_monday() as usize][date.month0() as usize]
+    }
+}
+
+/// How the count measured traffic.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Measure {
+    /// Vehicles counted directly.
+    Vehicles,
+    /// Axle hits; turned into vehicles by `hits / 2 × acf`.
+    Axles {
+        /// Axle-correction factor, vehicles per axle pair.
+        acf: f64,
+        /// Its coefficient of variation.
+        cv: f64,
+    },
+}
+
+/// One day of a short count: its local date and two-way volume (vehicles or axle hits).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CountDay {
+    /// Local date (for a folded day, the date holding most of its hours).
+    pub date: NaiveDate,
+    /// Two-way volume of the day.
+    pub volume: f64,
+}
+
+/// A short count ready to expand.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ShortCount {
+    /// Complete days of the count.
+    pub days: Vec<CountDay>,
+    /// How it was measured.
+    pub measure: Measure,
+    /// Calendar year of the count.
+    pub year: i32,
+}
+
+/// Growth from a count's year to the study year.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Growth {
+    /// Multiplier G.
+    pub factor: f64,
+    /// Standard deviation of ln G from the growth fit.
+    pub log_sd: f64,
+}
+
+impl Growth {
+    /// No growth (count from the study year).
+    pub const NONE: Growth = Growth {
+        factor: 1.0,
+        log_sd: 0.0,
+    };
+}
+
+/// An expanded count.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Expanded {
+    /// AADT for the study year, vehicles/day.
+    pub aadt: f64,
+    /// Modelled standard deviation of ln AADT before calibration scaling.
+    pub log_sd: f64,
+    /// Days used.
+    pub days: usize,
+}
+
+impl Expanded {
+    /// The 95 % interval for a calibration scale `c`.
+    pub fn interval95(&self, c: f64) -> (f64, f64) {
+        let h = Z95 * c * self.log_sd;
+        (self.aadt * (-h).exp(), self.aadt * h.exp())
+    }
+}
+
+/// Why a count could not be expanded.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+pub enum ExpansionError {
+    /// No complete day, and the hours cannot be folded into one.
+    #[error("no complete 24-hour day in the count")]
+    NoCompleteDay,
+}
+
+/// Expands one short count (see the module docs for the formula and the error model),
+/// treating it as current; [`expand_for_year`] adds the per-year growth term for old counts.
+pub fn expand(
+    count: &ShortCount,
+    factors: &GroupFactors,
+    growth: Growth,
+    params: &ExpansionParams,
+) -> Result<Expanded, ExpansionError> {
+    if count.days.is_empty() {
+        return Err(ExpansionError::NoCompleteDay);
+    }
+    let (acf, acf_cv) = match count.measure {
+        Measure::Vehicles => (1.0, 0.0),
+        Measure::Axles { acf, cv } => (acf / 2.0, cv),
+    };
+    let n = count.days.len() as f64;
+    let aadt = count
+        .days
+        .iter()
+        .map(|d| d.volume * factors.factor(d.date) * acf * growth.factor)
+        .sum::<f64>()
+        / n;
+    let s_f = count
+        .days
+        .iter()
+        .map(|d| factors.cv(d.date).unwrap_or(params.default_factor_cv))
+        .sum::<f64>()
+        / n;
+    let s_d = factors.day_cv.unwrap_or(params.default_day_cv);
+    let n_g = factors.stations.max(1) as f64;
+    let var = s_f * s_f * (1.0 + 1.0 / n_g)
+        + s_d * s_d / n
+        + growth.log_sd * growth.log_sd
+        + acf_cv * acf_cv;
+    Ok(Expanded {
+        aadt,
+        log_sd: var.sqrt(),
+        days: count.days.len(),
+    })
+}
+
+/// Expands a count taken in `count.year` for `study_year`, adding the per-year growth term.
+pub fn expand_for_year(
+    count: &ShortCount,
+    factors: &GroupFactors,
+    growth: Growth,
+    study_year: i32,
+    params: &ExpansionParams,
+) -> Result<Expanded, ExpansionError> {
+    let mut e = expand(count, factors, growth, params)?;
+    let age = (study_year - count.year).abs() as f64;
+    let extra = (age * params.growth_cv_per_year).powi(2);
+    e.log_sd = (e.log_sd * e.log_sd + extra).sqrt();
+    Ok(e)
+}
+
+/// Several expanded counts of one segment combined by inverse-variance weights in log space.
+///
+/// Returns (AADT, log sd). The combined sd is floored at the smallest single sd divided by
+/// the square root of the number of counts, and counts are treated as independent.
+pub fn combine(counts: &[Expanded]) -> Option<(f64, f64)> {
+    if counts.is_empty() {
+        return None;
+    }
+    let w: Vec<f64> = counts
+        .iter()
+        .map(|c| 1.0 / c.log_sd.max(1e-6).powi(2))
+        .collect();
+    let wsum: f64 = w.iter().sum();
+    let mean_log = counts
+        .iter()
+        .zip(&w)
+        .map(|(c, w)| w * c.aadt.ln())
+        .sum::<f64>()
+        / wsum;
+    Some((mean_log.exp(), (1.0 / wsum).sqrt()))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+
+    /// Group factors where every cell is `f` (a flat pattern has factors of 1).
+    fn flat(f: f64) -> GroupFactors {
+        GroupFactors {
+            dow_month: [[f; 12]; 7],
+            dow_month_cv: [[Some(0.05); 12]; 7],
+            day_cv: Some(0.08),
+            stations: 5,
+        }
+    }
+
+    fn date(y: i32, m: u32, d: u32) -> NaiveDate {
+        NaiveDate::from_ymd_opt(y, m, d).unwrap()
+    }
+
+    /// TMG factor application on the worked year of references §1.5 / §2.4 (computed):
+    /// F(Tue, Jul) = F(Wed, Jul) = 9142.857 / (10000 × 1.2) = 0.7619; a 48-hour Tue–Wed July
+    /// count of 12,000 per day expands to 9142.857 exactly.
+    #[test]
+    fn tmg_worked_example_48_hour_july_count() {
+        let mut g = flat(1.0);
+        let aadt = 64_000.0 / 7.0;
+        let monthly = [0.80, 0.85, 0.95, 1.00, 1.05, 1.10, 1.20, 1.15, 1.05, 1.00, 0.95, 0.90];
+        let base = [10_000.0, 10_000.0, 10_000.0, 10_000.0, 10_000.0, 8_000.0, 6_000.0];
+        for (i, b) in base.iter().enumerate() {
+            for (j, m) in monthly.iter().enumerate() {
+                g.dow_month[i][j] = aadt / (b * m);
+            }
+        }
+        assert_relative_eq!(g.factor(date(2023, 7, 4)), 0.7619, epsilon = 1e-4);
+        let count = ShortCount {
+            days: vec![
+                CountDay { date: date(2023, 7, 4), volume: 12_000.0 },
+                CountDay { date: date(2023, 7, 5), volume: 12_000.0 },
+            ],
+            measure: Measure::Vehicles,
+            year: 2023,
+        };
+        let e = expand(&count, &g, Growth::NONE, &ExpansionParams::default()).unwrap();
+        assert_relative_eq!(e.aadt, 9142.857142857, max_relative = 1e-9);
+        assert_eq!(e.days, 2);
+    }
+
+    /// Axle correction (references §2.2, computed; TMG §3 / FHWA Pocket Guide p. 12 from memory):
+    /// 1,000 vehicles carrying 2,300 axles give ACF = 1000 / (2300 / 2) = 0.8696; a tube count of
+    /// 2,300 hits on a flat pattern therefore expands back to 1,000 vehicles.
+    #[test]
+    fn axle_correction_hand_example() {
+        let acf = 1000.0 / (2300.0 / 2.0);
+        assert_relative_eq!(acf, 0.8696, epsilon = 1e-4);
+        let count = ShortCount {
+            days: vec![CountDay { date: date(2024, 5, 14), volume: 2300.0 }],
+            measure: Measure::Axles { acf, cv: 0.03 },
+            year: 2024,
+        };
+        let e = expand(&count, &flat(1.0), Growth::NONE, &ExpansionParams::default()).unwrap();
+        assert_relative_eq!(e.aadt, 1000.0, max_relative = 1e-12);
+    }
+
+    /// Growth (references §2.3, common practice): a 2022 count of 10,000 brought to 2025 at
+    /// 2 %/yr compound is 10,000 × 1.02³ = 10,612.08.
+    #[test]
+    fn growth_hand_example() {
+        let count = ShortCount {
+            days: vec![CountDay { date: date(2022, 4, 12), volume: 10_000.0 }],
+            measure: Measure::Vehicles,
+            year: 2022,
+        };
+        let growth = Growth { factor: 1.02f64.powi(3), log_sd: 0.01 };
+        let p = ExpansionParams::default();
+        let e = expand_for_year(&count, &flat(1.0), growth, 2025, &p).unwrap();
+        assert_relative_eq!(e.aadt, 10_612.08, max_relative = 1e-6);
+        let current = expand(&count, &flat(1.0), Growth::NONE, &p).unwrap();
+        assert!(e.log_sd > current.log_sd, "older counts carry wider intervals");
+    }
+
+    #[test]
+    fn longer_counts_have_narrower_intervals_and_intervals_are_asymmetric() {
+        let p = ExpansionParams::default();
+        let mk = |n: u32| ShortCount {
+            days: (0..n).map(|k| CountDay { date: date(2025, 5, 13 + k), volume: 5000.0 }).collect(),
+            measure: Measure::Vehicles,
+            year: 2025,
+        };
+        let one = expand(&mk(1), &flat(1.0), Growth::NONE, &p).unwrap();
+        let three = expand(&mk(3), &flat(1.0), Growth::NONE, &p).unwrap();
+        assert!(three.log_sd < one.log_sd);
+        let (lo, hi) = one.interval95(1.0);
+        assert!(lo > 0.0 && hi - 5000.0 > 5000.0 - lo);
+    }
+
+    #[test]
+    fn combining_weights_by_precision() {
+        let a = Expanded { aadt: 1000.0, log_sd: 0.05, days: 3 };
+        let b = Expanded { aadt: 2000.0, log_sd: 0.50, days: 1 };
+        let (v, sd) = combine(&[a.clone(), b]).unwrap();
+        assert!(v > 1000.0 && v < 1100.0, "dominated by the precise count: {v}");
+        assert!(sd < a.log_sd);
+        assert!(combine(&[]).is_none());
+    }
+}

@@ -1,0 +1,1 @@
+//! Calibration of the short-count interval (filled below).
