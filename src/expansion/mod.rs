@@ -290,8 +290,12 @@ mod tests {
     fn tmg_worked_example_48_hour_july_count() {
         let mut g = flat(1.0);
         let aadt = 64_000.0 / 7.0;
-        let monthly = [0.80, 0.85, 0.95, 1.00, 1.05, 1.10, 1.20, 1.15, 1.05, 1.00, 0.95, 0.90];
-        let base = [10_000.0, 10_000.0, 10_000.0, 10_000.0, 10_000.0, 8_000.0, 6_000.0];
+        let monthly = [
+            0.80, 0.85, 0.95, 1.00, 1.05, 1.10, 1.20, 1.15, 1.05, 1.00, 0.95, 0.90,
+        ];
+        let base = [
+            10_000.0, 10_000.0, 10_000.0, 10_000.0, 10_000.0, 8_000.0, 6_000.0,
+        ];
         for (i, b) in base.iter().enumerate() {
             for (j, m) in monthly.iter().enumerate() {
                 g.dow_month[i][j] = aadt / (b * m);
@@ -300,8 +304,14 @@ mod tests {
         assert_relative_eq!(g.factor(date(2023, 7, 4)), 0.7619, epsilon = 1e-4);
         let count = ShortCount {
             days: vec![
-                CountDay { date: date(2023, 7, 4), volume: 12_000.0 },
-                CountDay { date: date(2023, 7, 5), volume: 12_000.0 },
+                CountDay {
+                    date: date(2023, 7, 4),
+                    volume: 12_000.0,
+                },
+                CountDay {
+                    date: date(2023, 7, 5),
+                    volume: 12_000.0,
+                },
             ],
             measure: Measure::Vehicles,
             year: 2023,
@@ -319,11 +329,20 @@ mod tests {
         let acf = 1000.0 / (2300.0 / 2.0);
         assert_relative_eq!(acf, 0.8696, epsilon = 1e-4);
         let count = ShortCount {
-            days: vec![CountDay { date: date(2024, 5, 14), volume: 2300.0 }],
+            days: vec![CountDay {
+                date: date(2024, 5, 14),
+                volume: 2300.0,
+            }],
             measure: Measure::Axles { acf, cv: 0.03 },
             year: 2024,
         };
-        let e = expand(&count, &flat(1.0), Growth::NONE, &ExpansionParams::default()).unwrap();
+        let e = expand(
+            &count,
+            &flat(1.0),
+            Growth::NONE,
+            &ExpansionParams::default(),
+        )
+        .unwrap();
         assert_relative_eq!(e.aadt, 1000.0, max_relative = 1e-12);
     }
 
@@ -332,23 +351,37 @@ mod tests {
     #[test]
     fn growth_hand_example() {
         let count = ShortCount {
-            days: vec![CountDay { date: date(2022, 4, 12), volume: 10_000.0 }],
+            days: vec![CountDay {
+                date: date(2022, 4, 12),
+                volume: 10_000.0,
+            }],
             measure: Measure::Vehicles,
             year: 2022,
         };
-        let growth = Growth { factor: 1.02f64.powi(3), log_sd: 0.01 };
+        let growth = Growth {
+            factor: 1.02f64.powi(3),
+            log_sd: 0.01,
+        };
         let p = ExpansionParams::default();
         let e = expand_for_year(&count, &flat(1.0), growth, 2025, &p).unwrap();
         assert_relative_eq!(e.aadt, 10_612.08, max_relative = 1e-6);
         let current = expand(&count, &flat(1.0), Growth::NONE, &p).unwrap();
-        assert!(e.log_sd > current.log_sd, "older counts carry wider intervals");
+        assert!(
+            e.log_sd > current.log_sd,
+            "older counts carry wider intervals"
+        );
     }
 
     #[test]
     fn longer_counts_have_narrower_intervals_and_intervals_are_asymmetric() {
         let p = ExpansionParams::default();
         let mk = |n: u32| ShortCount {
-            days: (0..n).map(|k| CountDay { date: date(2025, 5, 13 + k), volume: 5000.0 }).collect(),
+            days: (0..n)
+                .map(|k| CountDay {
+                    date: date(2025, 5, 13 + k),
+                    volume: 5000.0,
+                })
+                .collect(),
             measure: Measure::Vehicles,
             year: 2025,
         };
@@ -361,10 +394,21 @@ mod tests {
 
     #[test]
     fn combining_weights_by_precision() {
-        let a = Expanded { aadt: 1000.0, log_sd: 0.05, days: 3 };
-        let b = Expanded { aadt: 2000.0, log_sd: 0.50, days: 1 };
+        let a = Expanded {
+            aadt: 1000.0,
+            log_sd: 0.05,
+            days: 3,
+        };
+        let b = Expanded {
+            aadt: 2000.0,
+            log_sd: 0.50,
+            days: 1,
+        };
         let (v, sd) = combine(&[a.clone(), b]).unwrap();
-        assert!(v > 1000.0 && v < 1100.0, "dominated by the precise count: {v}");
+        assert!(
+            v > 1000.0 && v < 1100.0,
+            "dominated by the precise count: {v}"
+        );
         assert!(sd < a.log_sd);
         assert!(combine(&[]).is_none());
     }

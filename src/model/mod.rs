@@ -5,6 +5,7 @@ pub mod counts;
 pub mod ids;
 pub mod network;
 pub mod station;
+pub mod views;
 
 pub use counts::{DayCounts, Direction, DirectionDay, StationDayKey, MAX_DAY_HOURS};
 pub use ids::{NodeId, SegmentId, StationId};
