@@ -12,12 +12,11 @@
 //!   A    axle-correction factor of the group (vehicles per axle pair), axle counts only
 //!   G    growth factor from the count year to the study year
 //! ```
-//! and the count's AADT is the mean of its days' estimates. **Partial days** at the start and
-//! end of a count are not used as days. When a count has no complete local day at all (a 24-hour
-//! count started mid-morning), its hours are folded onto one clock day: each clock hour is taken
-//! from the first day that has it, provided every clock hour is present once; that synthetic day
-//! takes the factor of the day holding most of its hours. Otherwise the count is not expanded and
-//! the reason is reported.
+//! and the count's AADT is the mean of its periods' estimates. **Partial days**: a count is cut
+//! into consecutive 24-hour periods from its first hour (a count started at 10:00 gives periods
+//! 10:00-10:00); a period that straddles two local days takes the hour-weighted mean of the two
+//! days' factors, `F = Σ_k (h_k / 24) F_k`; hours left over after the last full period are not
+//! used. Hours must be consecutive: a gap starts a new run of periods.
 //!
 //! # Interval
 //! The error of an expanded count is modelled in log space as the sum of independent parts:
@@ -122,20 +121,67 @@ pub enum Measure {
     },
 }
 
-/// One day of a short count: its local date and two-way volume (vehicles or axle hits).
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct CountDay {
-    /// Local date (for a folded day, the date holding most of its hours).
-    pub date: NaiveDate,
-    /// Two-way volume of the day.
+/// One 24-hour period of a short count: its two-way volume and the local days it spans,
+/// each with the share of the period's hours that fell on it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CountPeriod {
+    /// Two-way volume of the 24 hours (vehicles, or axle hits).
     pub volume: f64,
+    /// (local date, share of the 24 hours on that date); shares sum to 1.
+    pub parts: Vec<(NaiveDate, f64)>,
+}
+
+impl CountPeriod {
+    /// A period that is exactly one local day.
+    pub fn day(date: NaiveDate, volume: f64) -> CountPeriod {
+        CountPeriod {
+            volume,
+            parts: vec![(date, 1.0)],
+        }
+    }
+}
+
+/// One clock hour of a short count, in time order.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CountHour {
+    /// Local date of the hour.
+    pub date: NaiveDate,
+    /// Two-way volume of the hour.
+    pub volume: f64,
+    /// Whether this hour directly follows the previous one (false after a gap).
+    pub follows: bool,
+}
+
+/// Cuts consecutive hours into 24-hour periods (see the module docs).
+pub fn periods(hours: &[CountHour]) -> Vec<CountPeriod> {
+    let mut out = Vec::new();
+    let mut run: Vec<CountHour> = Vec::with_capacity(24);
+    for h in hours {
+        if !h.follows {
+            run.clear();
+        }
+        run.push(*h);
+        if run.len() == 24 {
+            let volume = run.iter().map(|h| h.volume).sum();
+            let mut parts: Vec<(NaiveDate, f64)> = Vec::new();
+            for h in &run {
+                match parts.last_mut() {
+                    Some((d, w)) if *d == h.date => *w += 1.0 / 24.0,
+                    _ => parts.push((h.date, 1.0 / 24.0)),
+                }
+            }
+            out.push(CountPeriod { volume, parts });
+            run.clear();
+        }
+    }
+    out
 }
 
 /// A short count ready to expand.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ShortCount {
-    /// Complete days of the count.
-    pub days: Vec<CountDay>,
+    /// Full 24-hour periods of the count.
+    pub periods: Vec<CountPeriod>,
     /// How it was measured.
     pub measure: Measure,
     /// Calendar year of the count.
@@ -166,7 +212,7 @@ pub struct Expanded {
     pub aadt: f64,
     /// Modelled standard deviation of ln AADT before calibration scaling.
     pub log_sd: f64,
-    /// Days used.
+    /// 24-hour periods used.
     pub days: usize,
 }
 
@@ -181,8 +227,8 @@ impl Expanded {
 /// Why a count could not be expanded.
 #[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
 pub enum ExpansionError {
-    /// No complete day, and the hours cannot be folded into one.
-    #[error("no complete 24-hour day in the count")]
+    /// Fewer than 24 consecutive hours.
+    #[error("no 24 consecutive hours in the count")]
     NoCompleteDay,
 }
 
@@ -194,24 +240,27 @@ pub fn expand(
     growth: Growth,
     params: &ExpansionParams,
 ) -> Result<Expanded, ExpansionError> {
-    if count.days.is_empty() {
+    if count.periods.is_empty() {
         return Err(ExpansionError::NoCompleteDay);
     }
     let (acf, acf_cv) = match count.measure {
         Measure::Vehicles => (1.0, 0.0),
         Measure::Axles { acf, cv } => (acf / 2.0, cv),
     };
-    let n = count.days.len() as f64;
+    let n = count.periods.len() as f64;
+    let weighted = |p: &CountPeriod, f: &dyn Fn(NaiveDate) -> f64| -> f64 {
+        p.parts.iter().map(|(d, w)| w * f(*d)).sum()
+    };
     let aadt = count
-        .days
+        .periods
         .iter()
-        .map(|d| d.volume * factors.factor(d.date) * acf * growth.factor)
+        .map(|p| p.volume * weighted(p, &|d| factors.factor(d)) * acf * growth.factor)
         .sum::<f64>()
         / n;
     let s_f = count
-        .days
+        .periods
         .iter()
-        .map(|d| factors.cv(d.date).unwrap_or(params.default_factor_cv))
+        .map(|p| weighted(p, &|d| factors.cv(d).unwrap_or(params.default_factor_cv)))
         .sum::<f64>()
         / n;
     let s_d = factors.day_cv.unwrap_or(params.default_day_cv);
@@ -223,7 +272,7 @@ pub fn expand(
     Ok(Expanded {
         aadt,
         log_sd: var.sqrt(),
-        days: count.days.len(),
+        days: count.periods.len(),
     })
 }
 
@@ -303,15 +352,9 @@ mod tests {
         }
         assert_relative_eq!(g.factor(date(2023, 7, 4)), 0.7619, epsilon = 1e-4);
         let count = ShortCount {
-            days: vec![
-                CountDay {
-                    date: date(2023, 7, 4),
-                    volume: 12_000.0,
-                },
-                CountDay {
-                    date: date(2023, 7, 5),
-                    volume: 12_000.0,
-                },
+            periods: vec![
+                CountPeriod::day(date(2023, 7, 4), 12_000.0),
+                CountPeriod::day(date(2023, 7, 5), 12_000.0),
             ],
             measure: Measure::Vehicles,
             year: 2023,
@@ -329,10 +372,7 @@ mod tests {
         let acf = 1000.0 / (2300.0 / 2.0);
         assert_relative_eq!(acf, 0.8696, epsilon = 1e-4);
         let count = ShortCount {
-            days: vec![CountDay {
-                date: date(2024, 5, 14),
-                volume: 2300.0,
-            }],
+            periods: vec![CountPeriod::day(date(2024, 5, 14), 2300.0)],
             measure: Measure::Axles { acf, cv: 0.03 },
             year: 2024,
         };
@@ -351,10 +391,7 @@ mod tests {
     #[test]
     fn growth_hand_example() {
         let count = ShortCount {
-            days: vec![CountDay {
-                date: date(2022, 4, 12),
-                volume: 10_000.0,
-            }],
+            periods: vec![CountPeriod::day(date(2022, 4, 12), 10_000.0)],
             measure: Measure::Vehicles,
             year: 2022,
         };
@@ -376,11 +413,8 @@ mod tests {
     fn longer_counts_have_narrower_intervals_and_intervals_are_asymmetric() {
         let p = ExpansionParams::default();
         let mk = |n: u32| ShortCount {
-            days: (0..n)
-                .map(|k| CountDay {
-                    date: date(2025, 5, 13 + k),
-                    volume: 5000.0,
-                })
+            periods: (0..n)
+                .map(|k| CountPeriod::day(date(2025, 5, 13 + k), 5000.0))
                 .collect(),
             measure: Measure::Vehicles,
             year: 2025,
@@ -390,6 +424,45 @@ mod tests {
         assert!(three.log_sd < one.log_sd);
         let (lo, hi) = one.interval95(1.0);
         assert!(lo > 0.0 && hi - 5000.0 > 5000.0 - lo);
+    }
+
+    #[test]
+    fn a_count_started_mid_morning_is_cut_into_straddling_periods() {
+        let mut hours = Vec::new();
+        for k in 0..50u32 {
+            let h = 10 + k;
+            hours.push(CountHour {
+                date: date(2025, 5, 13 + h / 24),
+                volume: 100.0,
+                follows: k != 0,
+            });
+        }
+        let ps = periods(&hours);
+        assert_eq!(ps.len(), 2, "50 hours give two full periods");
+        assert_relative_eq!(ps[0].volume, 2400.0);
+        assert_eq!(ps[0].parts.len(), 2);
+        assert_relative_eq!(ps[0].parts[0].1, 14.0 / 24.0, epsilon = 1e-12);
+        let mut g = flat(1.0);
+        g.dow_month[1][4] = 1.2; // Tuesday in May
+        g.dow_month[2][4] = 0.9; // Wednesday in May
+        let c = ShortCount {
+            periods: ps,
+            measure: Measure::Vehicles,
+            year: 2025,
+        };
+        let e = expand(&c, &g, Growth::NONE, &ExpansionParams::default()).unwrap();
+        let f1 = 14.0 / 24.0 * 1.2 + 10.0 / 24.0 * 0.9;
+        let f2 = 14.0 / 24.0 * 0.9 + 10.0 / 24.0 * 1.0;
+        assert_relative_eq!(e.aadt, 2400.0 * (f1 + f2) / 2.0, max_relative = 1e-12);
+        let gap: Vec<CountHour> = hours
+            .iter()
+            .enumerate()
+            .map(|(i, h)| CountHour {
+                follows: i != 0 && i != 20,
+                ..*h
+            })
+            .collect();
+        assert_eq!(periods(&gap).len(), 1, "a gap restarts the 24-hour run");
     }
 
     #[test]
