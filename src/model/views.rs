@@ -22,6 +22,9 @@ fn hour_value(d: &DirectionDay, h: usize, m: Measured) -> Option<u64> {
     }
 }
 
+/// An hour's two-way volume with its `fwd` and `rev` parts where known.
+pub type HourSplit = (u64, Option<u64>, Option<u64>);
+
 /// Two-way volume of hour slot `h`, with the volume of each direction where known.
 /// Returns (two-way, fwd, rev); `fwd`/`rev` are `None` when only a `both` record covers it.
 pub fn two_way_hour(
@@ -30,7 +33,7 @@ pub fn two_way_hour(
     oneway: bool,
     m: Measured,
     excluded: &dyn Fn(Direction) -> bool,
-) -> Option<(u64, Option<u64>, Option<u64>)> {
+) -> Option<HourSplit> {
     let get = |d: Direction| {
         if excluded(d) {
             return None;
@@ -53,7 +56,7 @@ pub fn complete_hours(
     oneway: bool,
     m: Measured,
     excluded: &dyn Fn(Direction) -> bool,
-) -> Option<Vec<(u64, Option<u64>, Option<u64>)>> {
+) -> Option<Vec<HourSplit>> {
     day.day_hours()
         .map(|h| two_way_hour(day, h, oneway, m, excluded))
         .collect()
