@@ -61,6 +61,10 @@
 //! - AASHTO *Guidelines for Traffic Data Programs*, 2009 (from memory).
 //! - Imputation and verdict order: project decision (common practice in spirit).
 
+// The 7 × 12 cell grids are indexed by (dow, month) across several arrays at once;
+// index loops read more plainly here than zipped iterators.
+#![allow(clippy::needless_range_loop)]
+
 use chrono::{Datelike, NaiveDate};
 
 use super::{check_volume, ContinuousError, DayVolume};

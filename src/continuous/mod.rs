@@ -13,7 +13,7 @@
 //!   [`aadt::SufficiencyRule`] and imputation of empty MADW cells. Monthly, day-of-week and
 //!   day-of-week-by-month factors follow the TMG convention: a factor **multiplies** a short
 //!   count to give AADT (factor = AADT / short-period average).
-//! - [`design_hour`]: ranked two-way clock hours, the 30th-highest hour, K30, D, DHV, DDHV,
+//! - [`design_hour`](mod@design_hour): ranked two-way clock hours, the 30th-highest hour, K30, D, DHV, DDHV,
 //!   the 100th-highest hour, the ranked-hour curve, hourly distributions by day type, and the
 //!   HCM peak hour factor.
 //! - [`classes`]: AADT per FHWA class, heavy / single-unit / combination shares, heavy-vehicle
