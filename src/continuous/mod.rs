@@ -44,8 +44,8 @@ use chrono::NaiveDate;
 use thiserror::Error;
 
 pub use aadt::{
-    compute_aadt, AadtResult, InsufficiencyReason, MadwCell, StationFactors, Sufficiency,
-    SufficiencyRule,
+    calendar_weighted_hourly, compute_aadt, AadtResult, InsufficiencyReason, MadwCell,
+    StationFactors, Sufficiency, SufficiencyRule,
 };
 pub use classes::{
     axle_correction_factor, class_aadt, mean_axles_per_vehicle, AxleSample, ClassAadt, ClassDay,
