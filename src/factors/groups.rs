@@ -48,7 +48,9 @@
 
 use kodama::{linkage, Method};
 
-use super::precision::{FactorStats, DEFAULT_TARGET_PRECISION};
+use super::precision::{
+    required_sample_size, FactorStats, DEFAULT_CONFIDENCE, DEFAULT_TARGET_PRECISION,
+};
 use super::FactorError;
 use crate::continuous::{AxleSample, StationFactors};
 
@@ -402,6 +404,17 @@ impl GroupSummary {
         GroupSummary::new(profiles, DEFAULT_TARGET_PRECISION)
     }
 
+    /// Stations this group would need for every factor to meet `target` at 95 %: the largest
+    /// [`required_sample_size`] over the 19 factors' CVs (with the finite-population
+    /// correction when `population` is given).
+    pub fn stations_needed(&self, target: f64, population: Option<usize>) -> Option<usize> {
+        self.monthly
+            .iter()
+            .chain(self.day_of_week.iter())
+            .map(|s| required_sample_size(s.cv, target, DEFAULT_CONFIDENCE, population))
+            .try_fold(0usize, |acc, n| n.map(|n| acc.max(n)))
+    }
+
     /// The group factors: mean monthly factors.
     pub fn monthly_factors(&self) -> [f64; 12] {
         self.monthly.map(|s| s.mean)
@@ -656,6 +669,18 @@ mod tests {
             (1.45 + 0.95) / 2.0,
             max_relative = 1e-12
         );
+        // Needs at least as many stations as the worst factor's CV demands (refs §2.6).
+        let worst_cv = s
+            .monthly
+            .iter()
+            .chain(s.day_of_week.iter())
+            .map(|f| f.cv)
+            .fold(0.0, f64::max);
+        assert_eq!(
+            s.stations_needed(0.10, None),
+            required_sample_size(worst_cv, 0.10, 0.95, None)
+        );
+        assert!(s.stations_needed(0.10, None).unwrap() > 2);
         let single = GroupSummary::with_default_target(&[&a]).unwrap();
         assert!(single.worst_precision.is_none());
         assert!(!single.meets_target);
