@@ -1,1 +1,87 @@
-//! factors stage (to be filled).
+//! Factor groups, group factors and their precision, sample sizes, axle-correction factors
+//! per group, and growth factors.
+//!
+//! Pure maths on the outputs of [`crate::continuous`]: no file I/O, no printing.
+//!
+//! # Method
+//! - [`groups`]: station factor profiles (12 monthly + 7 day-of-week factors, TMG
+//!   convention: factors multiply a short count); groups by rule (functional class × area,
+//!   plus recreational by seasonal amplitude) or by Ward clustering of standardised
+//!   profiles with a stated criterion for the number of groups; group summaries with
+//!   precision flags; group ACF.
+//! - [`precision`]: t and z quantiles (statrs), precision of a group mean
+//!   `t_{0.975,n−1}·CV/√n`, required number of stations by iteration, with an optional
+//!   finite-population correction.
+//! - [`growth`]: pooled log-linear growth with station fixed effects, growth rate and
+//!   growth factor with 95 % intervals, fallback chain, compound-rate helper.
+//!
+//! # Units
+//! Factors, CVs, precisions and rates are fractions; years are calendar years.
+//!
+//! # References
+//! - FHWA *Traffic Monitoring Guide* 2001 §3 App. 3-A, 2013 §3.2.3, 2016 ch. 3 (factor
+//!   groups, precision target, sample size; from memory, `references.md` §2.5-2.6).
+//! - AASHTO *Guidelines for Traffic Data Programs*, 2009 (from memory).
+//! - NCHRP Research Report 1124 (2024), summary (read, `references.md` §2.5).
+//! - Growth model, clustering criterion and fallbacks: common practice / project decisions,
+//!   stated in each module.
+
+pub mod groups;
+pub mod growth;
+pub mod precision;
+
+use thiserror::Error;
+
+pub use groups::{
+    cluster_profiles, group_axle_correction, rule_group, AcfPooling, Area, ClusterParams,
+    Clustering, FactorProfile, GroupSummary, RuleGroup, RuleGroupParams,
+};
+pub use growth::{
+    compound_rate, fit_growth, growth_with_fallback, GrowthFactor, GrowthFit, GrowthObservation,
+    GrowthSource, NO_HISTORY_SLOPE_SE,
+};
+pub use precision::{
+    precision_achieved, required_sample_size, t_quantile, z_quantile, FactorStats,
+    DEFAULT_CONFIDENCE, DEFAULT_TARGET_PRECISION,
+};
+
+/// Errors of the factor-group and growth maths.
+#[derive(Debug, Error, Clone, PartialEq)]
+pub enum FactorError {
+    /// No station (profile) was given.
+    #[error("no station was given")]
+    NoStations,
+    /// A profile holds a factor that is not a positive finite number.
+    #[error("station {station_id} has a factor that is not a positive finite number")]
+    BadProfile {
+        /// The station.
+        station_id: String,
+    },
+    /// Functional class outside 1..=7.
+    #[error("functional class {0} is not in 1..=7")]
+    BadFunctionalClass(u8),
+    /// An AADT in a growth series is not a positive finite number.
+    #[error("AADT of {unit} in {year} is not a positive finite number")]
+    BadAadt {
+        /// Station or segment.
+        unit: String,
+        /// Year.
+        year: i32,
+    },
+    /// A unit was given twice for one year.
+    #[error("{unit} has more than one AADT for {year}")]
+    DuplicateObservation {
+        /// Station or segment.
+        unit: String,
+        /// Year.
+        year: i32,
+    },
+    /// Not enough years to fit a growth slope with a residual degree of freedom.
+    #[error("too little history to fit growth: {observations} observations of {units} units")]
+    TooLittleHistory {
+        /// Observations.
+        observations: usize,
+        /// Units.
+        units: usize,
+    },
+}
