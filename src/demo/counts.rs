@@ -326,6 +326,9 @@ fn draw_day(
     [fwd, rev]
 }
 
+/// Vehicles, axles and class counts of one row; `None` leaves the cells empty.
+type Cells<'a> = (Option<u32>, Option<u32>, Option<&'a [u32; 13]>);
+
 /// Reusable text fields of one counts row (avoids allocating per row on big files).
 struct RowBuf {
     fields: Vec<String>,
@@ -338,16 +341,14 @@ impl RowBuf {
         }
     }
 
-    /// Fills the row; `vehicles`/`axles` `None` leave the cell empty.
+    /// Fills the row; `None` cells stay empty.
     fn fill(
         &mut self,
         station: &str,
         direction: &str,
         start: &str,
         minutes: u32,
-        vehicles: Option<u32>,
-        axles: Option<u32>,
-        classes: Option<&[u32; 13]>,
+        (vehicles, axles, classes): Cells,
     ) {
         for f in &mut self.fields {
             f.clear();
@@ -435,9 +436,7 @@ pub(crate) fn write_continuous(
                         name,
                         &day[r.interval].start,
                         st.minutes,
-                        Some(r.vehicles),
-                        None,
-                        r.classes.as_ref(),
+                        (Some(r.vehicles), None, r.classes.as_ref()),
                     );
                     sink.row(&buf.fields)?;
                 }
@@ -576,8 +575,7 @@ pub(crate) fn write_short(
         for (dir, name) in recs.iter().zip(direction_names(st.kind)) {
             for r in dir {
                 let start = &intervals[r.interval].start;
-                let (vehicles, axles, classes) = row_values(st.kind, r);
-                buf.fill(&st.id, name, start, 60, vehicles, axles, classes);
+                buf.fill(&st.id, name, start, 60, row_values(st.kind, r));
                 // The sixth row of a target station carries its problem.
                 if let (Some(problem), 5) = (bad, row_no) {
                     write_bad(&mut sink, &mut buf, problem, &mut bad_rows, FILE)?;
@@ -598,7 +596,7 @@ pub(crate) fn write_short(
 }
 
 /// Vehicles, axles and class cells of a short-count row.
-fn row_values(kind: ShortKind, r: &Rec) -> (Option<u32>, Option<u32>, Option<&[u32; 13]>) {
+fn row_values(kind: ShortKind, r: &Rec) -> Cells<'_> {
     match kind {
         ShortKind::PerDirection | ShortKind::Both => (Some(r.vehicles), None, None),
         ShortKind::Classified => (Some(r.vehicles), None, r.classes.as_ref()),

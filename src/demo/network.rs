@@ -13,12 +13,13 @@
 //!   arterial `R3` (3);
 //! * local dead-end roads (7) branching off the rural grid.
 //!
-//! True AADT is log-linear: `ln AADT = ln base(class, area) + 0.18 (lanes - usual lanes)
-//! + route offset + route random walk + spatial field + noise`, clamped to a plausible range
-//! per class. The spatial field is a sum of random cosines (a random Fourier feature
+//! True AADT is log-linear: the log of AADT is the log of a base value by class and area,
+//! plus 0.18 per lane above the usual number, a route offset, a random walk along the route,
+//! a spatial field and a little independent noise, then clamped to a plausible range per
+//! class. The spatial field is a sum of random cosines (a random Fourier feature
 //! approximation of a Gaussian field with about 12 km correlation length), so nearby segments
-//! correlate; the random walk along a route (AR(1), rho 0.85) keeps consecutive segments of
-//! a route close.
+//! correlate; the random walk along a route (AR(1), rho 0.85) keeps consecutive segments of a
+//! route close.
 //!
 //! # Units
 //!
@@ -221,6 +222,8 @@ fn add_rural_grid(net: &mut Network, rng: &mut ChaCha8Rng, scale: &Scale, names:
     }
     // Rows run west-east, columns south-north; every fourth line is a minor arterial with a
     // numbered route, the others collectors with names.
+    // `k` picks a row or a column, so it indexes both axes of the grid.
+    #[allow(clippy::needless_range_loop)]
     for k in 0..g {
         for horizontal in [true, false] {
             let path: Vec<usize> = (0..g)
@@ -252,6 +255,7 @@ fn add_town(net: &mut Network, m: usize, cx: f64, cy: f64, names: &mut usize) {
             );
         }
     }
+    #[allow(clippy::needless_range_loop)]
     for k in 0..m {
         for horizontal in [true, false] {
             let mut path: Vec<usize> = (0..m)
