@@ -24,7 +24,7 @@ use chrono::{Datelike, Duration, NaiveDate, Weekday};
 use rand::seq::SliceRandom;
 use rand::Rng;
 use rand_chacha::ChaCha8Rng;
-use rand_distr::{Binomial, Distribution, LogNormal, Poisson};
+use rand_distr::{Binomial, Distribution, LogNormal, Poisson, StandardNormal};
 
 use super::clock::{self, Interval};
 use super::faults::{self, BadRow, FaultKind, FaultRow, Rec};
@@ -117,7 +117,9 @@ pub(crate) fn plan_stations(
             Some(net.tolled[1])
         } else {
             let class = CONTINUOUS_CLASS_CYCLE[i % CONTINUOUS_CLASS_CYCLE.len()];
-            pick_continuous_segment(rng, net, &used, class, i % 3)
+            // Shift the pattern each round of the class cycle so classes meet every pattern.
+            let pattern = (i + i / CONTINUOUS_CLASS_CYCLE.len()) % 3;
+            pick_continuous_segment(rng, net, &used, class, pattern)
         };
         let Some(seg) = seg else { break };
         used[seg] = true;
@@ -139,7 +141,7 @@ pub(crate) fn plan_stations(
     StationPlan { continuous, short }
 }
 
-/// A two-way segment of `class` and `pattern`, falling back to the class, then to any.
+/// A two-way segment of `class` and `pattern`, falling back to the pattern, the class, any.
 fn pick_continuous_segment(
     rng: &mut ChaCha8Rng,
     net: &Network,
@@ -148,8 +150,9 @@ fn pick_continuous_segment(
     pattern: usize,
 ) -> Option<usize> {
     let free = |s: &&Segment| !s.oneway && !used[segment_index(s)];
-    let tiers: [&dyn Fn(&Segment) -> bool; 3] = [
+    let tiers: [&dyn Fn(&Segment) -> bool; 4] = [
         &|s| s.class == class && s.pattern == pattern,
+        &|s| s.pattern == pattern,
         &|s| s.class == class,
         &|_| true,
     ];
@@ -253,9 +256,15 @@ fn mean_one_lognormal(cv: f64) -> LogNormal<f64> {
     LogNormal::new(-0.5 * sigma * sigma, sigma).expect("finite parameters")
 }
 
+/// A Poisson draw; above a mean of 50 the normal approximation N(mean, mean), rounded,
+/// which is accurate there and needs one random number instead of a rejection loop.
 fn poisson(rng: &mut ChaCha8Rng, mean: f64) -> u32 {
     if mean <= 0.0 {
         return 0;
+    }
+    if mean > 50.0 {
+        let z: f64 = StandardNormal.sample(rng);
+        return (mean + z * mean.sqrt()).round().max(0.0) as u32;
     }
     Poisson::new(mean).expect("positive mean").sample(rng) as u32
 }

@@ -109,6 +109,8 @@ pub(crate) struct Network {
     pub segments: Vec<Segment>,
     /// Tolled segments (consecutive segments of the interstate), in route order.
     pub tolled: Vec<usize>,
+    /// Side of the rural grid, km.
+    extent_km: f64,
     /// Town centres and radii in plane km.
     towns: Vec<(f64, f64, f64)>,
     routes: Vec<Route>,
@@ -120,10 +122,11 @@ pub(crate) fn build(rng: &mut ChaCha8Rng, scale: &Scale) -> Network {
         nodes: Vec::new(),
         segments: Vec::new(),
         tolled: Vec::new(),
+        extent_km: (scale.rural_grid - 1) as f64 * scale.rural_spacing_km,
         towns: Vec::new(),
         routes: Vec::new(),
     };
-    let extent = (scale.rural_grid - 1) as f64 * scale.rural_spacing_km;
+    let extent = net.extent_km;
     let centres = [(0.30, 0.35), (0.72, 0.70), (0.70, 0.22)];
     for (&m, &(fx, fy)) in scale.towns.iter().zip(centres.iter()) {
         let half = (m - 1) as f64 * BLOCK_KM / 2.0;
@@ -452,6 +455,7 @@ fn assign_traffic(net: &mut Network, rng: &mut ChaCha8Rng) {
             let car_vs_light_truck = rng.gen_range(0.62..0.74);
             let (mx, my) = midpoint(net, s);
             let inbound_fwd = towards_town(net, s);
+            let lake_district = mx < 0.45 * net.extent_km && my > 0.55 * net.extent_km;
             let seg = &mut net.segments[s];
             let c = (seg.class - 1) as usize;
             let base = if seg.urban {
@@ -469,7 +473,7 @@ fn assign_traffic(net: &mut Network, rng: &mut ChaCha8Rng) {
             }
             let (lo, hi) = AADT_RANGE[c];
             seg.aadt = aadt.clamp(lo, hi).round();
-            seg.pattern = pick_pattern(seg.class, seg.urban, pattern_draw);
+            seg.pattern = pick_pattern(seg.class, seg.urban, lake_district, pattern_draw);
             seg.inbound_fwd = inbound_fwd;
             let heavy_base = if seg.urban {
                 HEAVY_URBAN[c]
@@ -498,14 +502,16 @@ fn class_mix(heavy: f64, single_unit: f64, cars: f64) -> [f64; 13] {
     mix
 }
 
-/// Pattern by class and area; `u` is drawn once per route so a route mostly keeps one
-/// pattern.
-fn pick_pattern(class: u8, urban: bool, u: f64) -> usize {
-    // Cumulative probabilities of (commuter, intercity); recreational takes the rest.
-    let (p_commuter, p_intercity) = match (urban, class) {
-        (true, _) => (0.8, 1.0),
-        (false, 1..=3) => (0.0, 0.7),
-        (false, _) => (0.2, 0.7),
+/// Pattern by class, area and place; `u` is drawn once per route so a route mostly keeps
+/// one pattern. The north-west quarter of the region is an invented lake district whose
+/// rural roads carry recreational (seasonal, weekend) traffic.
+fn pick_pattern(class: u8, urban: bool, lake_district: bool, u: f64) -> usize {
+    // Upper bounds of u for (commuter, intercity); recreational takes the rest.
+    let (p_commuter, p_intercity) = match (urban, lake_district, class) {
+        (true, _, _) => (0.8, 1.0),
+        (false, true, _) => (0.0, 0.15),
+        (false, false, 1..=3) => (0.0, 0.85),
+        (false, false, _) => (0.2, 0.85),
     };
     if u < p_commuter {
         0
