@@ -7,21 +7,21 @@
 //!
 //! # Method
 //!
-//! 1. [`network`] lays out an invented region: a rural grid of minor arterials and collectors,
+//! 1. `network` lays out an invented region: a rural grid of minor arterials and collectors,
 //!    one or more towns with dense street grids, an interstate and a freeway crossing the
 //!    region, rural principal arterials between the towns and local dead-end roads. Each
 //!    segment gets a true AADT from a log-linear model of functional class, area and lanes,
 //!    plus a spatially smooth random field and a random walk along its route (so consecutive
 //!    segments of one route carry similar volumes).
-//! 2. [`patterns`] defines the temporal patterns (factor groups): monthly, day-of-week and
+//! 2. `patterns` defines the temporal patterns (factor groups): monthly, day-of-week and
 //!    hourly profiles, directional split, holidays and growth. The expected daily volume of a
 //!    segment on a date is `AADT x norm x month x weekday x holiday`, with `norm` chosen so
 //!    that the mean over the year is exactly the AADT.
-//! 3. [`counts`] draws hourly (or 15-minute) counts at the stations: expected volume x
+//! 3. `counts` draws hourly (or 15-minute) counts at the stations: expected volume x
 //!    lognormal day noise x lognormal interval noise, then a Poisson draw; class counts by a
-//!    multinomial draw over the segment's class mix. [`faults`] then corrupts a few
+//!    multinomial draw over the segment's class mix. `faults` then corrupts a few
 //!    station-days (stuck, dead, spikes, level shifts, partial days, swapped directions).
-//! 4. [`extras`] writes history, toll billing and the truth tables.
+//! 4. `extras` writes history, toll billing and the truth tables.
 //!
 //! Everything is drawn from one `ChaCha8Rng` seeded by [`DemoParams::seed`]; no wall clock is
 //! read, so identical parameters give byte-identical files.

@@ -408,3 +408,40 @@ fn bench_params_default_to_no_bad_rows() {
     let (_, bad) = read_csv(&dir.path().join("truth/bad_rows.csv"));
     assert!(bad.is_empty());
 }
+
+#[test]
+fn continuous_counts_average_to_the_true_aadt() {
+    let (_, stations) = read_csv(&study().join("stations.csv"));
+    let (_, truth) = read_csv(&study().join("truth/segment_truth.csv"));
+    let aadt: HashMap<&str, f64> = truth
+        .iter()
+        .map(|t| (t["segment_id"].as_str(), t["true_aadt"].parse().unwrap()))
+        .collect();
+    let mut totals: HashMap<&str, f64> = HashMap::new();
+    for r in continuous_rows() {
+        *totals.entry(r["station_id"].as_str()).or_default() +=
+            r["vehicles"].parse::<f64>().unwrap();
+    }
+    for st in stations.iter().filter(|s| s["kind"] == "continuous") {
+        let mean_daily = totals[st["station_id"].as_str()] / 365.0;
+        // Faults remove or distort a few percent of days; day noise averages out over a year.
+        assert_relative_eq!(
+            mean_daily,
+            aadt[st["segment_id"].as_str()],
+            max_relative = 0.05
+        );
+    }
+}
+
+#[test]
+fn unsupported_year_is_an_error() {
+    let dir = tempfile::tempdir().unwrap();
+    let p = DemoParams {
+        year: 1900,
+        ..DemoParams::default()
+    };
+    assert!(matches!(
+        generate(&p, dir.path()),
+        Err(DemoError::Year { year: 1900 })
+    ));
+}
