@@ -68,7 +68,7 @@ fn profile(floor: f64, bumps: &[(f64, f64, f64)]) -> [f64; 24] {
     for (h, v) in p.iter_mut().enumerate() {
         let t = h as f64 + 0.5;
         // A smooth day/night cycle: lowest around 03:30.
-        let night = floor * (1.2 - (std::f64::consts::TAU * (t - 15.5) / 24.0).cos());
+        let night = floor * (1.2 + (std::f64::consts::TAU * (t - 15.5) / 24.0).cos());
         *v = night
             + bumps
                 .iter()
