@@ -1,0 +1,240 @@
+//! `study.toml`, `history.csv`, `toll.csv` and the truth tables.
+//!
+//! # Method
+//!
+//! History: published AADT of year `y` = true AADT / (1 + growth)^(year - y) x lognormal
+//! noise (CV 3 %), for every continuous-counter segment (all five earlier years) and a third
+//! of the others (each year with probability 0.7).
+//!
+//! Toll: monthly billing for each tolled segment and vehicle group; the true passages are the
+//! generator's expected volumes (no day noise) summed over the month, both directions;
+//! billed = true x (1 + N(0, 1 %)), except exactly one row billed at true x 1.10.
+//!
+//! # Units
+//!
+//! Vehicles per day (AADT), vehicles per billing period (toll), fractions (shares, growth).
+
+use std::path::{Path, PathBuf};
+
+use chrono::{Datelike, NaiveDate};
+use rand::Rng;
+use rand_chacha::ChaCha8Rng;
+use rand_distr::{Distribution, LogNormal, Normal};
+
+use super::counts::StationPlan;
+use super::network::Network;
+use super::patterns::{days_of_year, Pattern};
+use super::sink::{self, CsvSink};
+use super::{DemoError, DemoParams};
+
+/// Years of history before the study year.
+const HISTORY_YEARS: i32 = 5;
+
+pub(crate) fn write_study_toml(out: &Path, params: &DemoParams) -> Result<PathBuf, DemoError> {
+    let text = format!(
+        "# Invented demo study from roadtally's demo generator (seed {}, size {:?}); \
+         every place, road and figure is made up.\nyear = {}\n",
+        params.seed, params.size, params.year
+    );
+    sink::write_text(out.join("study.toml"), &text)
+}
+
+pub(crate) fn write_history(
+    rng: &mut ChaCha8Rng,
+    out: &Path,
+    net: &Network,
+    plan: &StationPlan,
+    year: i32,
+) -> Result<PathBuf, DemoError> {
+    let mut sink = CsvSink::create(out.join("history.csv"), &["segment_id", "year", "aadt"])?;
+    let noise = LogNormal::new(0.0, 0.03).expect("finite sd");
+    let mut counted = vec![false; net.segments.len()];
+    for c in &plan.continuous {
+        counted[c.segment] = true;
+    }
+    let growth: Vec<f64> = Pattern::all().iter().map(|p| p.growth).collect();
+    for (s, seg) in net.segments.iter().enumerate() {
+        let every_year = counted[s];
+        if !every_year && !rng.gen_bool(1.0 / 3.0) {
+            continue;
+        }
+        for y in (year - HISTORY_YEARS)..year {
+            if !every_year && !rng.gen_bool(0.7) {
+                continue;
+            }
+            let g = growth[seg.pattern];
+            let aadt = seg.aadt / (1.0 + g).powi(year - y) * noise.sample(rng);
+            sink.row([
+                seg.id.clone(),
+                y.to_string(),
+                format!("{}", aadt.round().max(1.0)),
+            ])?;
+        }
+    }
+    sink.finish()
+}
+
+/// One billing row with its truth.
+struct TollRow {
+    segment: String,
+    from: NaiveDate,
+    to: NaiveDate,
+    group: &'static str,
+    true_vehicles: u64,
+    billed: u64,
+    misbilled: bool,
+}
+
+/// Writes `toll.csv` and `truth/toll_truth.csv`.
+pub(crate) fn write_toll(
+    rng: &mut ChaCha8Rng,
+    out: &Path,
+    net: &Network,
+    pats: &[Pattern],
+    year: i32,
+) -> Result<Vec<PathBuf>, DemoError> {
+    let days = days_of_year(year);
+    let noise = Normal::new(0.0, 0.01).expect("finite sd");
+    let mut rows = Vec::new();
+    for &s in &net.tolled {
+        let seg = &net.segments[s];
+        let pattern = &pats[seg.pattern];
+        let norm = pattern.norm(year);
+        let heavy = seg.heavy_share();
+        for month in 1..=12 {
+            let in_month: Vec<NaiveDate> = days
+                .iter()
+                .copied()
+                .filter(|d| d.month() == month)
+                .collect();
+            let total: f64 = in_month
+                .iter()
+                .map(|&d| seg.aadt * pattern.day_level(d, norm))
+                .sum();
+            for (group, share) in [("light", 1.0 - heavy), ("heavy", heavy)] {
+                let true_vehicles = (total * share).round();
+                let billed = (true_vehicles * (1.0 + noise.sample(rng))).round();
+                rows.push(TollRow {
+                    segment: seg.id.clone(),
+                    from: in_month[0],
+                    to: *in_month.last().expect("months have days"),
+                    group,
+                    true_vehicles: true_vehicles as u64,
+                    billed: billed.max(0.0) as u64,
+                    misbilled: false,
+                });
+            }
+        }
+    }
+    if !rows.is_empty() {
+        let k = rng.gen_range(0..rows.len());
+        rows[k].billed = (rows[k].true_vehicles as f64 * 1.10).round() as u64;
+        rows[k].misbilled = true;
+    }
+    let mut toll = CsvSink::create(
+        out.join("toll.csv"),
+        &[
+            "segment_id",
+            "from_date",
+            "to_date",
+            "vehicle_group",
+            "billed_vehicles",
+        ],
+    )?;
+    let mut truth = CsvSink::create(
+        out.join("truth/toll_truth.csv"),
+        &[
+            "segment_id",
+            "from_date",
+            "to_date",
+            "vehicle_group",
+            "true_vehicles",
+            "billed_vehicles",
+            "misbilled",
+        ],
+    )?;
+    for r in &rows {
+        let (from, to) = (r.from.to_string(), r.to.to_string());
+        let billed = r.billed.to_string();
+        toll.row([r.segment.as_str(), &from, &to, r.group, &billed])?;
+        truth.row([
+            r.segment.as_str(),
+            &from,
+            &to,
+            r.group,
+            &r.true_vehicles.to_string(),
+            &billed,
+            if r.misbilled { "true" } else { "false" },
+        ])?;
+    }
+    Ok(vec![toll.finish()?, truth.finish()?])
+}
+
+/// Writes `truth/segment_truth.csv`.
+pub(crate) fn write_segment_truth(
+    out: &Path,
+    net: &Network,
+    pats: &[Pattern],
+) -> Result<PathBuf, DemoError> {
+    let mut sink = CsvSink::create(
+        out.join("truth/segment_truth.csv"),
+        &[
+            "segment_id",
+            "pattern",
+            "true_aadt",
+            "true_heavy_share",
+            "true_single_unit_share",
+            "true_combination_share",
+            "growth_rate",
+        ],
+    )?;
+    for s in &net.segments {
+        let p = &pats[s.pattern];
+        sink.row([
+            s.id.clone(),
+            p.name.to_string(),
+            format!("{}", s.aadt),
+            format!("{:.5}", s.heavy_share()),
+            format!("{:.5}", s.single_unit_share()),
+            format!("{:.5}", s.combination_share()),
+            format!("{}", p.growth),
+        ])?;
+    }
+    sink.finish()
+}
+
+/// Writes `truth/patterns.csv` (monthly and weekday factors per pattern) and
+/// `truth/weekday_month_factors.csv` (the 7 x 12 table per pattern).
+pub(crate) fn write_pattern_truth(
+    out: &Path,
+    pats: &[Pattern],
+    year: i32,
+) -> Result<Vec<PathBuf>, DemoError> {
+    let mut header = vec!["pattern".to_string(), "growth_rate".to_string()];
+    header.extend((1..=12).map(|m| format!("month_{m}")));
+    header.extend((1..=7).map(|w| format!("weekday_{w}")));
+    let refs: Vec<&str> = header.iter().map(String::as_str).collect();
+    let mut summary = CsvSink::create(out.join("truth/patterns.csv"), &refs)?;
+    let mut table = CsvSink::create(
+        out.join("truth/weekday_month_factors.csv"),
+        &["pattern", "month", "weekday", "factor"],
+    )?;
+    for p in pats {
+        let mut row = vec![p.name.to_string(), p.growth.to_string()];
+        row.extend(p.monthly_factors(year).iter().map(|f| format!("{f:.6}")));
+        row.extend(p.weekday_factors(year).iter().map(|f| format!("{f:.6}")));
+        summary.row(&row)?;
+        for month in 1..=12 {
+            for weekday in 1..=7 {
+                let f = p.weekday_month_factor(year, month, weekday);
+                table.row([
+                    p.name.to_string(),
+                    month.to_string(),
+                    weekday.to_string(),
+                    format!("{f:.6}"),
+                ])?;
+            }
+        }
+    }
+    Ok(vec![summary.finish()?, table.finish()?])
+}
