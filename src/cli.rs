@@ -2,7 +2,9 @@
 
 use std::path::PathBuf;
 
-use clap::{Parser, Subcommand, ValueEnum};
+use clap::{Parser, Subcommand};
+
+use crate::demo::DemoSize;
 
 /// Annual traffic statistics for every segment of a road network.
 ///
@@ -22,17 +24,6 @@ pub struct Cli {
     /// No progress bars and no summary on the terminal.
     #[arg(long, short, global = true)]
     pub quiet: bool,
-}
-
-/// Size of a generated demo study.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
-pub enum Size {
-    /// About 300 segments, 10 permanent counters, 100 short counts.
-    Small,
-    /// About 3,000 segments, 60 permanent counters, 1,000 short counts.
-    Large,
-    /// 400 permanent counters x 2 directions of hourly records for a year (~7 million rows).
-    Bench,
 }
 
 /// The commands.
@@ -66,8 +57,10 @@ pub enum Command {
         /// Random seed; the same seed gives byte-identical files.
         #[arg(long, default_value_t = 7)]
         seed: u64,
-        /// Size of the study.
-        #[arg(long, value_enum, default_value_t = Size::Small)]
-        size: Size,
+        /// Size of the study: small (~300 segments, 10 permanent counters, 100 short counts),
+        /// large (~3,000 segments, 60 / 1,000), bench (400 permanent counters x 2 directions of
+        /// hourly records for a year, ~7 million rows).
+        #[arg(long, value_enum, default_value_t = DemoSize::Small)]
+        size: DemoSize,
     },
 }

@@ -6,6 +6,7 @@ use std::process::ExitCode;
 use clap::Parser;
 use roadtally::cli::{Cli, Command};
 use roadtally::config::Config;
+use roadtally::demo::{self, DemoParams};
 use roadtally::pipeline;
 
 fn main() -> ExitCode {
@@ -43,8 +44,20 @@ fn dispatch(cli: &Cli) -> anyhow::Result<u8> {
             Ok(report.check.exit_code() as u8)
         }
         Command::Demo { out, seed, size } => {
-            let _ = (out, seed, size);
-            anyhow::bail!("the demo generator is not built yet")
+            let params = DemoParams::new(*seed, *size);
+            let summary = demo::generate(&params, out)?;
+            if !cli.quiet {
+                println!(
+                    "wrote a demo study to {}: {} segments, {} permanent and {} short-count stations, {} count rows, {} injected faults",
+                    out.display(),
+                    summary.segments,
+                    summary.stations_continuous,
+                    summary.stations_short,
+                    summary.count_rows,
+                    summary.faults
+                );
+            }
+            Ok(0)
         }
     }
 }

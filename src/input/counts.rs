@@ -337,7 +337,7 @@ fn parse_row(
                 return Err(fault(
                     "vehicles",
                     v.to_string().as_bytes(),
-                    format!("vehicles ({v}) differs from the sum of the class columns ({sum})"),
+                    format!("vehicles differ from the sum of the class columns ({v} vs {sum})"),
                 ));
             }
             Some(v)
