@@ -71,7 +71,8 @@ use chrono::{Datelike, NaiveDate};
 use super::{check_volume, ContinuousError, DayVolume};
 
 /// When a year of days is good enough for an AASHTO AADT and for factors.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(default, deny_unknown_fields)]
 pub struct SufficiencyRule {
     /// Valid days a MADW cell needs to count as measured (default 1, as TMG App. L allows
     /// "between one and five records"). A value of 0 is treated as 1.

@@ -39,6 +39,7 @@
 pub mod aadt;
 pub mod classes;
 pub mod design_hour;
+pub mod stage;
 
 use chrono::NaiveDate;
 use thiserror::Error;

@@ -156,7 +156,8 @@ impl RuleGroup {
 }
 
 /// Parameters of grouping by rule.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
+#[serde(default, deny_unknown_fields)]
 pub struct RuleGroupParams {
     /// Seasonal amplitude (`max MF / min MF`) from which a station is recreational
     /// (default 1.8; project choice).

@@ -29,6 +29,7 @@
 pub mod groups;
 pub mod growth;
 pub mod precision;
+pub mod stage;
 
 use thiserror::Error;
 

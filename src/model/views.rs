@@ -159,3 +159,19 @@ mod tests {
         assert_eq!(complete_total(&day, false, Measured::Axles, &none), None);
     }
 }
+
+/// Which direction-days later stages must leave out (quality control's rejections).
+pub trait DayFilter: Sync {
+    /// Whether `station`'s direction `d` on `date` is left out.
+    fn excluded(&self, station: usize, date: chrono::NaiveDate, d: Direction) -> bool;
+}
+
+/// Leaves nothing out.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct KeepAll;
+
+impl DayFilter for KeepAll {
+    fn excluded(&self, _: usize, _: chrono::NaiveDate, _: Direction) -> bool {
+        false
+    }
+}

@@ -1,0 +1,491 @@
+//! The factor stage: factor groups, their factors and their precision, for every segment.
+//!
+//! # Method
+//! Groups are formed by rule (FHWA functional class x area, with a recreational group for
+//! counters whose seasonal amplitude is high; see [`rule_group`]) — the TMG's "traditional"
+//! grouping. Segments without a permanent counter take their group from an editable
+//! assignment table (functional class, area, optionally route): a route that carries a
+//! recreational counter sends its segments to the recreational group (the TMG's "same road"
+//! application). Ward clustering of the counters' factor profiles is reported beside the rule
+//! groups as a check on them.
+//!
+//! Each group's day-of-week-by-month factor is the arithmetic mean of its stations' factors
+//! (common practice), with the between-station CV per cell. A group without a usable counter
+//! borrows the factors of the same road type in the other area, else of every counter; the
+//! output says so.
+//!
+//! # References
+//! FHWA *Traffic Monitoring Guide* 2016 §3 (factor groups; from memory); NCHRP Research
+//! Report 1124 (2024) on grouping methods.
+
+use std::collections::BTreeMap;
+
+use serde::{Deserialize, Serialize};
+
+use super::groups::{rule_group, Area as GroupArea, FactorProfile, RuleGroup, RuleGroupParams};
+use super::growth::{growth_with_fallback, GrowthFit, GrowthObservation, NO_HISTORY_SLOPE_SE};
+use super::precision::FactorStats;
+use super::{cluster_profiles, ClusterParams, Clustering, GroupSummary};
+use crate::continuous::stage::{ContinuousOutput, StationStats};
+use crate::expansion::GroupFactors;
+use crate::input::StudyData;
+use crate::model::{Area, Network};
+
+/// Settings of the factor stage (`[factors]` in study.toml).
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+#[serde(default, deny_unknown_fields)]
+pub struct FactorParams {
+    /// Grouping by rule.
+    pub rule: RuleGroupParams,
+    /// Precision a group's factors should reach at 95 % confidence. Default 0.10 (TMG ±10 %).
+    pub target_precision: f64,
+    /// Largest number of clusters tried by the clustering check. Default 8.
+    pub cluster_k_max: usize,
+    /// Fewest stations per cluster. Default 3.
+    pub cluster_n_min: usize,
+    /// Standard error of the yearly log growth when no history exists. Default 0.02.
+    pub no_history_slope_se: f64,
+}
+
+impl Default for FactorParams {
+    fn default() -> Self {
+        FactorParams {
+            rule: RuleGroupParams::default(),
+            target_precision: 0.10,
+            cluster_k_max: 8,
+            cluster_n_min: 3,
+            no_history_slope_se: NO_HISTORY_SLOPE_SE,
+        }
+    }
+}
+
+/// One row of the editable group-assignment table (`factors/group_assignment.csv`).
+#[derive(Debug, Clone, PartialEq, Eq, PartialOrd, Ord)]
+pub struct AssignmentRow {
+    /// Route the row applies to; `None` for the default row of a class and area.
+    pub route: Option<String>,
+    /// FHWA functional class, `None` for any.
+    pub functional_class: Option<u8>,
+    /// Area, `None` for any.
+    pub area: Option<Area>,
+    /// Group name.
+    pub group: String,
+}
+
+/// A factor group and everything estimated for it.
+#[derive(Debug, Clone)]
+pub struct Group {
+    /// Name (a [`RuleGroup`] name).
+    pub name: String,
+    /// Permanent counters in the group (station indices), usable for factors or not.
+    pub members: Vec<usize>,
+    /// The counters whose factors were averaged (its own, or borrowed ones).
+    pub factor_stations: Vec<usize>,
+    /// Where the factors came from: `own`, or `borrowed from <group>`.
+    pub source: String,
+    /// Factors for expansion.
+    pub factors: Option<GroupFactors>,
+    /// Heavy-vehicle factors, from classifying counters.
+    pub heavy_factors: Option<GroupFactors>,
+    /// Monthly and weekday factor statistics with precision.
+    pub summary: Option<GroupSummary>,
+    /// Axle-correction factor (mean of station factors) and its CV.
+    pub acf: Option<(f64, f64)>,
+    /// Growth fit.
+    pub growth: GrowthFit,
+    /// K30 over the group's counters.
+    pub k30: Option<FactorStats>,
+    /// D over the group's counters (measured splits only).
+    pub d: Option<FactorStats>,
+    /// Peak-hour factor over counters with 15-minute data.
+    pub phf: Option<FactorStats>,
+    /// Heavy share over classifying counters.
+    pub heavy_share: Option<FactorStats>,
+    /// Single-unit share over classifying counters.
+    pub single_unit_share: Option<FactorStats>,
+    /// Combination share over classifying counters.
+    pub combination_share: Option<FactorStats>,
+}
+
+/// What the stage produced.
+#[derive(Debug, Clone)]
+pub struct FactorOutput {
+    /// Groups, in a stable order.
+    pub groups: Vec<Group>,
+    /// Group index of every segment.
+    pub segment_group: Vec<usize>,
+    /// Rule group and cluster label of each permanent counter with a factor profile.
+    pub station_groups: Vec<StationGroup>,
+    /// The clustering check, when there were enough counters.
+    pub clustering: Option<Clustering>,
+    /// The assignment table used.
+    pub assignment: Vec<AssignmentRow>,
+}
+
+/// A permanent counter's grouping.
+#[derive(Debug, Clone)]
+pub struct StationGroup {
+    /// Station index.
+    pub station: usize,
+    /// Its factor profile.
+    pub profile: FactorProfile,
+    /// Group index.
+    pub group: usize,
+    /// Ward cluster label, when clustering ran.
+    pub cluster: Option<usize>,
+}
+
+impl FactorOutput {
+    /// Group index by name.
+    pub fn group_index(&self, name: &str) -> Option<usize> {
+        self.groups.iter().position(|g| g.name == name)
+    }
+}
+
+fn group_area(a: Area) -> GroupArea {
+    match a {
+        Area::Urban => GroupArea::Urban,
+        Area::Rural => GroupArea::Rural,
+    }
+}
+
+/// Group factors for expansion from a set of counters: the cell-wise mean of their 7 x 12
+/// factors, the between-station CV per cell, and the pooled day-to-day CV.
+pub fn group_factors(stats: &[&StationStats]) -> Option<GroupFactors> {
+    let f: Vec<_> = stats.iter().filter_map(|s| s.aadt.factors()).collect();
+    if f.is_empty() {
+        return None;
+    }
+    let mut out = GroupFactors {
+        dow_month: [[1.0; 12]; 7],
+        dow_month_cv: [[None; 12]; 7],
+        day_cv: None,
+        stations: f.len(),
+    };
+    for i in 0..7 {
+        for j in 0..12 {
+            let v: Vec<f64> = f.iter().map(|x| x.dow_by_month[i][j]).collect();
+            if let Some(st) = FactorStats::from_values(&v) {
+                out.dow_month[i][j] = st.mean;
+                out.dow_month_cv[i][j] = (st.n >= 2).then_some(st.cv);
+            }
+        }
+    }
+    let cvs: Vec<f64> = stats.iter().filter_map(|s| s.day_cv).collect();
+    if !cvs.is_empty() {
+        out.day_cv = Some((cvs.iter().map(|c| c * c).sum::<f64>() / cvs.len() as f64).sqrt());
+    }
+    Some(out)
+}
+
+/// Heavy-vehicle group factors from classifying counters.
+fn heavy_group_factors(stats: &[&StationStats]) -> Option<GroupFactors> {
+    let f: Vec<_> = stats
+        .iter()
+        .filter_map(|s| s.classes.as_ref()?.heavy_factors())
+        .collect();
+    if f.is_empty() {
+        return None;
+    }
+    let mut out = GroupFactors {
+        dow_month: [[1.0; 12]; 7],
+        dow_month_cv: [[None; 12]; 7],
+        day_cv: None,
+        stations: f.len(),
+    };
+    for i in 0..7 {
+        for j in 0..12 {
+            let v: Vec<f64> = f.iter().map(|x| x.dow_by_month[i][j]).collect();
+            if let Some(st) = FactorStats::from_values(&v) {
+                out.dow_month[i][j] = st.mean;
+                out.dow_month_cv[i][j] = (st.n >= 2).then_some(st.cv);
+            }
+        }
+    }
+    Some(out)
+}
+
+/// The default assignment table: one row per class and area, plus route rows for routes that
+/// carry a recreational counter.
+pub fn default_assignment(
+    net: &Network,
+    station_groups: &[(usize, RuleGroup)],
+    params: &FactorParams,
+) -> Vec<AssignmentRow> {
+    let mut rows = Vec::new();
+    for fc in 1..=7u8 {
+        for area in [Area::Urban, Area::Rural] {
+            let g = rule_group(fc, group_area(area), None, &params.rule).expect("valid class");
+            rows.push(AssignmentRow {
+                route: None,
+                functional_class: Some(fc),
+                area: Some(area),
+                group: g.name().to_string(),
+            });
+        }
+    }
+    let mut routes: Vec<String> = station_groups
+        .iter()
+        .filter(|(_, g)| *g == RuleGroup::Recreational)
+        .filter_map(|(seg, _)| net.segments[*seg].route.clone())
+        .collect();
+    routes.sort();
+    routes.dedup();
+    for r in routes {
+        rows.push(AssignmentRow {
+            route: Some(r),
+            functional_class: None,
+            area: None,
+            group: RuleGroup::Recreational.name().to_string(),
+        });
+    }
+    rows
+}
+
+/// The group name the table gives a segment: a matching route row first, then the class and
+/// area row.
+pub fn assigned_group<'a>(rows: &'a [AssignmentRow], net: &Network, seg: usize) -> Option<&'a str> {
+    let s = &net.segments[seg];
+    let fits = |r: &AssignmentRow| {
+        r.functional_class
+            .is_none_or(|c| c == s.functional_class.code())
+            && r.area.is_none_or(|a| a == s.area)
+    };
+    rows.iter()
+        .find(|r| r.route.is_some() && r.route == s.route && fits(r))
+        .or_else(|| rows.iter().find(|r| r.route.is_none() && fits(r)))
+        .map(|r| r.group.as_str())
+}
+
+fn stats_of(values: impl Iterator<Item = f64>) -> Option<FactorStats> {
+    let v: Vec<f64> = values.filter(|x| x.is_finite()).collect();
+    FactorStats::from_values(&v)
+}
+
+/// Runs the stage. `assignment` overrides the default table when the study provides one.
+pub fn run(
+    data: &StudyData,
+    cont: &ContinuousOutput,
+    year: i32,
+    assignment: Option<Vec<AssignmentRow>>,
+    params: &FactorParams,
+) -> FactorOutput {
+    let net = &data.network;
+    let seg_of = |st: usize| data.stations.stations[st].segment;
+    // 1. Rule group of every permanent counter (its own profile decides recreational).
+    let mut counter_groups: Vec<(usize, RuleGroup, Option<FactorProfile>)> = Vec::new();
+    for s in &cont.stations {
+        let seg = &net.segments[seg_of(s.station)];
+        let profile = s.aadt.factors().map(|f| {
+            FactorProfile::from_factors(data.stations.stations[s.station].id.as_str(), &f)
+        });
+        let g = rule_group(
+            seg.functional_class.code(),
+            group_area(seg.area),
+            profile.as_ref(),
+            &params.rule,
+        )
+        .expect("functional class validated on reading");
+        counter_groups.push((s.station, g, profile));
+    }
+    let seg_groups: Vec<(usize, RuleGroup)> = counter_groups
+        .iter()
+        .map(|(st, g, _)| (seg_of(*st), *g))
+        .collect();
+    let assignment = assignment.unwrap_or_else(|| default_assignment(net, &seg_groups, params));
+    // 2. Group of every segment: its counter's group, else the table's.
+    let mut names: Vec<String> = RuleGroup::ALL
+        .iter()
+        .map(|g| g.name().to_string())
+        .collect();
+    for r in &assignment {
+        if !names.contains(&r.group) {
+            names.push(r.group.clone());
+        }
+    }
+    let index_of = |n: &str| names.iter().position(|x| x == n);
+    let mut segment_group = vec![usize::MAX; net.segments.len()];
+    for (seg, g) in &seg_groups {
+        segment_group[*seg] = index_of(g.name()).expect("rule groups are named");
+    }
+    for (i, sg) in segment_group.iter_mut().enumerate() {
+        if *sg == usize::MAX {
+            let name =
+                assigned_group(&assignment, net, i).unwrap_or(RuleGroup::ArterialUrban.name());
+            *sg = index_of(name).expect("assignment groups are named");
+        }
+    }
+    // 3. Members and estimates.
+    let by_station: BTreeMap<usize, &StationStats> =
+        cont.stations.iter().map(|s| (s.station, s)).collect();
+    let members: Vec<Vec<usize>> = (0..names.len())
+        .map(|g| {
+            counter_groups
+                .iter()
+                .filter(|(st, _, _)| segment_group[seg_of(*st)] == g)
+                .map(|(st, _, _)| *st)
+                .collect()
+        })
+        .collect();
+    let usable = |st: &usize| by_station[st].aadt.sufficiency.usable_for_factors();
+    let all_usable: Vec<usize> = by_station.keys().copied().filter(usable).collect();
+    let network_obs = growth_observations(data, cont, year, None, &segment_group);
+    let mut groups = Vec::new();
+    for (g, name) in names.iter().enumerate() {
+        let own: Vec<usize> = members[g].iter().copied().filter(usable).collect();
+        let (factor_stations, source) = if !own.is_empty() {
+            (own, "own".to_string())
+        } else if let Some((other, st)) = sibling(name).and_then(|o| {
+            let oi = index_of(o)?;
+            let st: Vec<usize> = members[oi].iter().copied().filter(usable).collect();
+            (!st.is_empty()).then_some((o, st))
+        }) {
+            (st, format!("borrowed from {other}"))
+        } else {
+            (all_usable.clone(), "borrowed from all counters".to_string())
+        };
+        let fstats: Vec<&StationStats> = factor_stations.iter().map(|s| by_station[s]).collect();
+        let profiles: Vec<&FactorProfile> = counter_groups
+            .iter()
+            .filter(|(st, _, _)| factor_stations.contains(st))
+            .filter_map(|(_, _, p)| p.as_ref())
+            .collect();
+        let summary = GroupSummary::new(&profiles, params.target_precision).ok();
+        let acfs: Vec<f64> = fstats.iter().filter_map(|s| s.axles?.acf()).collect();
+        let acf = stats_of(acfs.into_iter()).map(|s| (s.mean, if s.n >= 2 { s.cv } else { 0.05 }));
+        let obs = growth_observations(data, cont, year, Some(g), &segment_group);
+        let growth = growth_with_fallback(&obs, &network_obs, params.no_history_slope_se)
+            .unwrap_or_else(|_| GrowthFit::no_history(params.no_history_slope_se));
+        groups.push(Group {
+            name: name.clone(),
+            members: members[g].clone(),
+            factor_stations,
+            source,
+            factors: group_factors(&fstats),
+            heavy_factors: heavy_group_factors(&fstats),
+            summary,
+            acf,
+            growth,
+            k30: stats_of(
+                fstats
+                    .iter()
+                    .filter_map(|s| s.design.as_ref().map(|d| d.k30)),
+            ),
+            d: stats_of(
+                fstats
+                    .iter()
+                    .filter(|s| s.d_measured)
+                    .filter_map(|s| s.design.as_ref().map(|d| d.d)),
+            ),
+            phf: stats_of(fstats.iter().filter_map(|s| s.phf)),
+            heavy_share: stats_of(
+                fstats
+                    .iter()
+                    .filter_map(|s| s.classes.as_ref()?.heavy_share),
+            ),
+            single_unit_share: stats_of(
+                fstats
+                    .iter()
+                    .filter_map(|s| s.classes.as_ref()?.single_unit_share),
+            ),
+            combination_share: stats_of(
+                fstats
+                    .iter()
+                    .filter_map(|s| s.classes.as_ref()?.combination_share),
+            ),
+        });
+    }
+    // 4. Clustering check.
+    let profiles: Vec<FactorProfile> = counter_groups
+        .iter()
+        .filter_map(|(_, _, p)| p.clone())
+        .collect();
+    let cparams = ClusterParams {
+        k_max: params.cluster_k_max,
+        n_min: params.cluster_n_min,
+        ..ClusterParams::default()
+    };
+    let clustering = (profiles.len() >= 2 * params.cluster_n_min)
+        .then(|| cluster_profiles(&profiles, &cparams).ok())
+        .flatten();
+    let mut k = 0;
+    let station_groups = counter_groups
+        .iter()
+        .filter_map(|(st, _, p)| {
+            let p = p.clone()?;
+            let cluster = clustering.as_ref().map(|c| c.labels[k]);
+            k += 1;
+            Some(StationGroup {
+                station: *st,
+                profile: p,
+                group: segment_group[seg_of(*st)],
+                cluster,
+            })
+        })
+        .collect();
+    FactorOutput {
+        groups,
+        segment_group,
+        station_groups,
+        clustering,
+        assignment,
+    }
+}
+
+/// The same road type in the other area, for borrowing factors.
+fn sibling(name: &str) -> Option<&'static str> {
+    let pairs = [
+        (RuleGroup::FreewayUrban, RuleGroup::FreewayRural),
+        (RuleGroup::ArterialUrban, RuleGroup::ArterialRural),
+        (
+            RuleGroup::CollectorLocalUrban,
+            RuleGroup::CollectorLocalRural,
+        ),
+    ];
+    pairs.iter().find_map(|(a, b)| {
+        if a.name() == name {
+            Some(b.name())
+        } else if b.name() == name {
+            Some(a.name())
+        } else {
+            None
+        }
+    })
+}
+
+/// Growth observations: published AADT of earlier years (history.csv) and this year's
+/// permanent-counter AADT, per segment; for one group, or for all when `group` is None.
+fn growth_observations(
+    data: &StudyData,
+    cont: &ContinuousOutput,
+    year: i32,
+    group: Option<usize>,
+    segment_group: &[usize],
+) -> Vec<GrowthObservation> {
+    let keep = |seg: usize| group.is_none_or(|g| segment_group[seg] == g);
+    let mut obs: Vec<GrowthObservation> = data
+        .history
+        .iter()
+        .filter(|h| keep(h.segment) && h.year != year)
+        .map(|h| GrowthObservation {
+            unit: data.network.segments[h.segment].id.0.clone(),
+            year: h.year,
+            aadt: h.aadt,
+        })
+        .collect();
+    for s in &cont.stations {
+        let seg = data.stations.stations[s.station].segment;
+        if keep(seg) && s.aadt.sufficiency.usable_for_factors() {
+            let unit = data.network.segments[seg].id.0.clone();
+            if !obs.iter().any(|o| o.unit == unit && o.year == year) {
+                obs.push(GrowthObservation {
+                    unit,
+                    year,
+                    aadt: s.aadt_value,
+                });
+            }
+        }
+    }
+    obs.sort_by(|a, b| (&a.unit, a.year).cmp(&(&b.unit, b.year)));
+    obs
+}
