@@ -49,6 +49,13 @@
 //!    the model mean squared error of those weights, `partial_sill − 2wᵀc₀ + wᵀCw`, ignoring the
 //!    drift: [`Fallback::InverseVarianceMean`].
 //!
+//! **Which variance to publish.** `variance` treats the whole nugget as noise, so it is the
+//! error variance of the smooth drift-plus-signal surface. If the nugget is read as real
+//! segment-to-segment (micro-scale) variation that belongs to a segment's true AADT (Cressie
+//! 1993 §3.2.1 splits the nugget into micro-scale and measurement-error parts), the error
+//! variance for an *uncounted* segment is `variance_with_nugget`. The weights and the estimate
+//! are the same either way at a segment with no count.
+//!
 //! A result is never NaN: if nothing gives a finite answer the error
 //! [`SpatialError::Unsolvable`] names the neighbour indices.
 //!
@@ -577,6 +584,61 @@ impl Kriger {
             fallbacks,
         }
     }
+}
+
+/// Ordinary least-squares fit of the drift (a constant plus the external terms) to the data,
+/// ignoring spatial correlation: the first step of regression-kriging and the source of the
+/// residuals whose empirical variogram is fitted.
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct DriftFit {
+    /// Intercept followed by one coefficient per drift term.
+    pub coefficients: Vec<f64>,
+    /// `value − fitted` per data point.
+    pub residuals: Vec<f64>,
+}
+
+/// Fits the drift by ordinary least squares (SVD, so a rank-deficient design still gives the
+/// minimum-norm solution rather than a failure).
+///
+/// ```
+/// use roadtally::spatial::{drift_residuals, KrigingData};
+/// // A textbook regression: x = 1..5, y = 2, 4, 5, 4, 5 → y = 2.2 + 0.6 x.
+/// let data = KrigingData {
+///     xy: vec![[0.0, 0.0]; 5],
+///     value: vec![2.0, 4.0, 5.0, 4.0, 5.0],
+///     drift: (1..=5).map(|x| vec![x as f64]).collect(),
+///     meas_var: vec![0.0; 5],
+/// };
+/// let fit = drift_residuals(&data).unwrap();
+/// assert!((fit.coefficients[0] - 2.2).abs() < 1e-12);
+/// assert!((fit.coefficients[1] - 0.6).abs() < 1e-12);
+/// ```
+pub fn drift_residuals(data: &KrigingData) -> Result<DriftFit, SpatialError> {
+    let p = data.validate()?;
+    let n = data.len();
+    let x = DMatrix::<f64>::from_fn(
+        n,
+        p + 1,
+        |i, j| {
+            if j == 0 {
+                1.0
+            } else {
+                data.drift[i][j - 1]
+            }
+        },
+    );
+    let y = DVector::from_column_slice(&data.value);
+    let svd = x.clone().svd(true, true);
+    let beta = svd
+        .solve(&y, 1e-12 * svd.singular_values.max())
+        .map_err(|reason| SpatialError::InvalidParams {
+            reason: reason.to_string(),
+        })?;
+    let residuals = (&y - &x * &beta).iter().copied().collect();
+    Ok(DriftFit {
+        coefficients: beta.iter().copied().collect(),
+        residuals,
+    })
 }
 
 /// Spare candidates asked of the k-d tree beyond the `k` neighbours.
@@ -1133,6 +1195,29 @@ mod tests {
             );
             assert!(c.standardised_error.unwrap().is_finite());
         }
+    }
+
+    /// OLS normal equations: residuals are orthogonal to every design column; a colinear
+    /// design still gives a finite minimum-norm fit.
+    #[test]
+    fn drift_residuals_are_orthogonal_to_the_design() {
+        let mut data = layout(20);
+        for d in data.drift.iter_mut() {
+            let f = d[0];
+            d.push(3.0 * f); // colinear on purpose
+        }
+        let fit = drift_residuals(&data).unwrap();
+        assert_eq!(fit.coefficients.len(), 3);
+        assert!(fit.coefficients.iter().all(|c| c.is_finite()));
+        let sum: f64 = fit.residuals.iter().sum();
+        assert_abs_diff_eq!(sum, 0.0, epsilon = 1e-9);
+        let dot: f64 = fit
+            .residuals
+            .iter()
+            .zip(&data.drift)
+            .map(|(r, d)| r * d[0])
+            .sum();
+        assert_abs_diff_eq!(dot, 0.0, epsilon = 1e-9);
     }
 
     /// The Hager–Higham estimate against the exact 1-norm condition number (explicit inverse)

@@ -50,8 +50,8 @@ mod optimize;
 pub mod variogram;
 
 pub use kriging::{
-    CrossValidationPoint, DriftDefect, DroppedDriftTerm, Fallback, Kriger, KrigingData,
-    KrigingParams, Prediction, Target,
+    drift_residuals, CrossValidationPoint, DriftDefect, DriftFit, DroppedDriftTerm, Fallback,
+    Kriger, KrigingData, KrigingParams, Prediction, Target,
 };
 pub use lognormal::{LogNormalEstimate, Z_95};
 pub use variogram::{
