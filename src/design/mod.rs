@@ -1,0 +1,1 @@
+//! Pavement and capacity design inputs (to be filled).

@@ -1,0 +1,1 @@
+//! Toll and shadow-toll reconciliation (to be filled).
