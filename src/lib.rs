@@ -26,5 +26,6 @@ pub mod output;
 pub mod pipeline;
 pub mod progress;
 pub mod qc;
+pub mod segments;
 pub mod spatial;
 pub mod toll;

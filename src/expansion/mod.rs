@@ -41,6 +41,7 @@
 //! memory). AASHTO *Guidelines for Traffic Data Programs* (2009; from memory).
 
 pub mod calibration;
+pub mod stage;
 
 use chrono::{Datelike, NaiveDate};
 use serde::{Deserialize, Serialize};

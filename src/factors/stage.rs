@@ -351,7 +351,7 @@ pub fn run(
             .filter_map(|(_, _, p)| p.as_ref())
             .collect();
         let summary = GroupSummary::new(&profiles, params.target_precision).ok();
-        let acfs: Vec<f64> = fstats.iter().filter_map(|s| s.axles?.acf()).collect();
+        let acfs: Vec<f64> = fstats.iter().filter_map(|s| station_acf(s)).collect();
         let acf = stats_of(acfs.into_iter()).map(|s| (s.mean, if s.n >= 2 { s.cv } else { 0.05 }));
         let obs = growth_observations(data, cont, year, Some(g), &segment_group);
         let growth = growth_with_fallback(&obs, &network_obs, params.no_history_slope_se)
@@ -430,6 +430,32 @@ pub fn run(
         clustering,
         assignment,
     }
+}
+
+/// Typical axles per vehicle of each FHWA class, from the class definitions (classes that
+/// span a range take a value inside it: 4 buses 2.2, 7 "four or more" 4, 8 "four or fewer" 3.5,
+/// 10 "six or more" 6, 11 "five or fewer" 5, 13 "seven or more" 7). Common practice, used only
+/// when a counter records classes but not axles.
+pub const AXLES_PER_CLASS: [f64; 13] = [
+    2.0, 2.0, 2.0, 2.2, 2.0, 3.0, 4.0, 3.5, 5.0, 6.0, 5.0, 6.0, 7.0,
+];
+
+/// A counter's axle-correction factor, vehicles per axle pair (TMG: ACF = vehicles / (axles / 2)):
+/// from vehicles and axles counted together where it has both, else from its class mix and
+/// [`AXLES_PER_CLASS`].
+pub fn station_acf(s: &StationStats) -> Option<f64> {
+    if let Some(a) = s.axles.and_then(|a| a.acf()) {
+        return Some(a);
+    }
+    let c = s.classes.as_ref()?;
+    let (mut veh, mut axles) = (0.0, 0.0);
+    for (k, v) in c.per_class.iter().enumerate() {
+        if let Some(v) = v {
+            veh += v;
+            axles += v * AXLES_PER_CLASS[k];
+        }
+    }
+    crate::continuous::axle_correction_factor(veh, axles)
 }
 
 /// The same road type in the other area, for borrowing factors.

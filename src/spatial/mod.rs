@@ -46,7 +46,9 @@
 
 pub mod kriging;
 pub mod lognormal;
+pub mod network_drift;
 mod optimize;
+pub mod stage;
 pub mod variogram;
 
 pub use kriging::{

@@ -1,0 +1,241 @@
+//! The short-count stage: every short count on the network to an AADT of the study year.
+//!
+//! A station's records are split into counts by calendar year; each count's hours (two-way,
+//! quality-control rejections left out) are cut into 24-hour periods and expanded with the
+//! factors of its segment's group ([`super::expand_for_year`]). Axle counts use the group's
+//! axle-correction factor. Counts on one segment are combined by inverse-variance weights.
+//! Heavy shares come from the count itself where it is classified (heavy volumes expanded with
+//! the group's heavy-vehicle factors), else from the nearest source the spatial stage finds.
+
+use std::collections::BTreeMap;
+
+use chrono::{Datelike, NaiveDate};
+
+use super::calibration::Calibration;
+use super::{
+    combine, expand_for_year, CountHour, Expanded, ExpansionParams, Growth, Measure, ShortCount,
+};
+use crate::factors::stage::FactorOutput;
+use crate::input::StudyData;
+use crate::model::views::{complete_classes, two_way_hour, DayFilter, Measured};
+use crate::model::{Direction, StationKind};
+
+/// One expanded short count.
+#[derive(Debug, Clone)]
+pub struct ExpandedCount {
+    /// Station index.
+    pub station: usize,
+    /// Segment index.
+    pub segment: usize,
+    /// Calendar year of the count.
+    pub year: i32,
+    /// First and last local date.
+    pub first: NaiveDate,
+    /// Last local date.
+    pub last: NaiveDate,
+    /// Hours of consecutive two-way data used.
+    pub hours: usize,
+    /// `vehicles` or `axles`.
+    pub measure: &'static str,
+    /// Classified.
+    pub classified: bool,
+    /// The expansion (log sd already scaled by the calibration).
+    pub expanded: Expanded,
+    /// Heavy share from the count's own classes (expanded), when classified.
+    pub heavy_share: Option<f64>,
+    /// Single-unit share, when classified.
+    pub single_unit_share: Option<f64>,
+    /// Combination share, when classified.
+    pub combination_share: Option<f64>,
+}
+
+/// A segment's short-count AADT.
+#[derive(Debug, Clone)]
+pub struct SegmentCount {
+    /// AADT, vehicles/day.
+    pub aadt: f64,
+    /// Standard deviation of ln AADT (calibrated).
+    pub log_sd: f64,
+    /// Indices into [`ExpansionOutput::counts`].
+    pub counts: Vec<usize>,
+}
+
+/// What the stage produced.
+#[derive(Debug, Clone, Default)]
+pub struct ExpansionOutput {
+    /// Every expanded count.
+    pub counts: Vec<ExpandedCount>,
+    /// Counts that could not be expanded: station, year, reason.
+    pub unexpanded: Vec<(usize, i32, String)>,
+    /// Per segment with at least one expanded count.
+    pub segments: BTreeMap<usize, SegmentCount>,
+}
+
+/// Runs the stage.
+pub fn run(
+    data: &StudyData,
+    year: i32,
+    filter: &dyn DayFilter,
+    factors: &FactorOutput,
+    calibration: &Calibration,
+    params: &ExpansionParams,
+) -> ExpansionOutput {
+    let mut out = ExpansionOutput::default();
+    for (s, station) in data.stations.stations.iter().enumerate() {
+        if station.kind != StationKind::Short {
+            continue;
+        }
+        let seg = station.segment;
+        let oneway = data.network.segments[seg].oneway;
+        let group = &factors.groups[factors.segment_group[seg]];
+        let mut by_year: BTreeMap<i32, Vec<&crate::model::DayCounts>> = BTreeMap::new();
+        for d in data.counts.days[s].values() {
+            by_year.entry(d.date.year()).or_default().push(d);
+        }
+        for (cy, days) in by_year {
+            let mut hours: Vec<CountHour> = Vec::new();
+            let mut measure = Measured::Vehicles;
+            if days
+                .iter()
+                .all(|d| crate::model::views::measure_of(d) == Measured::Axles)
+            {
+                measure = Measured::Axles;
+            }
+            let mut prev: Option<NaiveDate> = None;
+            let mut heavy_days = (0.0, 0.0, 0.0, 0.0); // (expanded heavy, expanded total, su, cu)
+            let mut classified = false;
+            for d in &days {
+                let excl = |x: Direction| filter.excluded(s, d.date, x);
+                let mut follows = prev.is_some_and(|p| p.succ_opt() == Some(d.date));
+                let mut complete = true;
+                for h in d.day_hours() {
+                    match two_way_hour(d, h, oneway, measure, &excl) {
+                        Some((v, _, _)) => {
+                            hours.push(CountHour {
+                                date: d.date,
+                                volume: v as f64,
+                                follows,
+                            });
+                            follows = true;
+                        }
+                        None => {
+                            follows = false;
+                            complete = false;
+                        }
+                    }
+                }
+                prev = complete.then_some(d.date);
+                if let (Some(c), Some(gf)) =
+                    (complete_classes(d, oneway, &excl), group.factors.as_ref())
+                {
+                    classified = true;
+                    let total: f64 = c.iter().map(|&x| x as f64).sum();
+                    let heavy: f64 = c[3..].iter().map(|&x| x as f64).sum();
+                    let su: f64 = c[3..7].iter().map(|&x| x as f64).sum();
+                    let hf = group.heavy_factors.as_ref().unwrap_or(gf);
+                    heavy_days.0 += heavy * hf.factor(d.date);
+                    heavy_days.1 += total * gf.factor(d.date);
+                    heavy_days.2 += su;
+                    heavy_days.3 += heavy - su;
+                }
+            }
+            let first = days.first().map(|d| d.date).expect("a year has days");
+            let last = days.last().map(|d| d.date).expect("a year has days");
+            let Some(gf) = group.factors.as_ref() else {
+                out.unexpanded.push((
+                    s,
+                    cy,
+                    "no permanent counter gives factors for its group".into(),
+                ));
+                continue;
+            };
+            let measure_kind = match measure {
+                Measured::Vehicles => Measure::Vehicles,
+                Measured::Axles => match group.acf.or_else(|| network_acf(factors)) {
+                    Some((acf, cv)) => Measure::Axles { acf, cv },
+                    None => {
+                        out.unexpanded.push((s, cy, "axle count, but no classifying counter gives an axle-correction factor".into()));
+                        continue;
+                    }
+                },
+            };
+            let gfac = group.growth.factor(cy, year);
+            let growth = Growth {
+                factor: gfac.factor,
+                log_sd: (gfac.hi95 / gfac.lo95).ln() / (2.0 * super::Z95),
+            };
+            let count = ShortCount {
+                periods: super::periods(&hours),
+                measure: measure_kind,
+                year: cy,
+            };
+            match expand_for_year(&count, gf, growth, year, params) {
+                Ok(mut e) => {
+                    let c = params
+                        .interval_scale
+                        .unwrap_or_else(|| calibration.scale_for(hours.len() as u32));
+                    e.log_sd *= c;
+                    let (hs, sus, cus) = if classified && heavy_days.1 > 0.0 {
+                        let h = (heavy_days.0 / heavy_days.1).clamp(0.0, 1.0);
+                        let su_frac = heavy_days.2 / (heavy_days.2 + heavy_days.3).max(1e-9);
+                        (Some(h), Some(h * su_frac), Some(h * (1.0 - su_frac)))
+                    } else {
+                        (None, None, None)
+                    };
+                    out.counts.push(ExpandedCount {
+                        station: s,
+                        segment: seg,
+                        year: cy,
+                        first,
+                        last,
+                        hours: hours.len(),
+                        measure: if matches!(measure, Measured::Axles) {
+                            "axles"
+                        } else {
+                            "vehicles"
+                        },
+                        classified,
+                        expanded: e,
+                        heavy_share: hs,
+                        single_unit_share: sus,
+                        combination_share: cus,
+                    });
+                }
+                Err(e) => out.unexpanded.push((s, cy, e.to_string())),
+            }
+        }
+    }
+    let mut per_seg: BTreeMap<usize, Vec<usize>> = BTreeMap::new();
+    for (i, c) in out.counts.iter().enumerate() {
+        per_seg.entry(c.segment).or_default().push(i);
+    }
+    for (seg, idx) in per_seg {
+        let ex: Vec<Expanded> = idx
+            .iter()
+            .map(|&i| out.counts[i].expanded.clone())
+            .collect();
+        if let Some((aadt, log_sd)) = combine(&ex) {
+            out.segments.insert(
+                seg,
+                SegmentCount {
+                    aadt,
+                    log_sd,
+                    counts: idx,
+                },
+            );
+        }
+    }
+    out
+}
+
+/// The mean axle-correction factor over every group that has one.
+fn network_acf(factors: &FactorOutput) -> Option<(f64, f64)> {
+    let v: Vec<(f64, f64)> = factors.groups.iter().filter_map(|g| g.acf).collect();
+    (!v.is_empty()).then(|| {
+        let n = v.len() as f64;
+        (
+            v.iter().map(|x| x.0).sum::<f64>() / n,
+            v.iter().map(|x| x.1).fold(0.0, f64::max).max(0.05),
+        )
+    })
+}

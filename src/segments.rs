@@ -1,0 +1,313 @@
+//! Assembly of the per-segment statistics from the stages: each segment's AADT comes from
+//! its permanent counter, else its short counts, else the spatial estimate; class shares and
+//! design-hour figures from the best source available, which the row names.
+
+use crate::continuous::stage::ContinuousOutput;
+use crate::expansion::stage::ExpansionOutput;
+use crate::expansion::Z95;
+use crate::factors::precision::FactorStats;
+use crate::factors::stage::FactorOutput;
+use crate::input::StudyData;
+use crate::spatial::stage::{Interval, Observation, SpatialOutput};
+
+/// Where a segment's AADT comes from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Basis {
+    /// A permanent counter on the segment.
+    Continuous,
+    /// One or more short counts on the segment.
+    ShortCount,
+    /// No count: the spatial estimate.
+    Estimated,
+}
+
+impl Basis {
+    /// The contract's spelling.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Basis::Continuous => "continuous",
+            Basis::ShortCount => "short_count",
+            Basis::Estimated => "estimated",
+        }
+    }
+}
+
+/// A share or factor with its source and a 95 % interval.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Sourced {
+    /// The value.
+    pub value: f64,
+    /// Lower 95 % bound.
+    pub lo95: f64,
+    /// Upper 95 % bound.
+    pub hi95: f64,
+    /// Where it came from (`counter`, `short_count`, `group:<name>`, `network`).
+    pub source: String,
+}
+
+impl Sourced {
+    fn measured(value: f64, rel_sd: f64, source: &str) -> Sourced {
+        Sourced {
+            value,
+            lo95: (value * (1.0 - Z95 * rel_sd)).max(0.0),
+            hi95: value * (1.0 + Z95 * rel_sd),
+            source: source.to_string(),
+        }
+    }
+
+    /// From group statistics: the mean, with the spread of the group's stations as the
+    /// interval for one new segment (`mean ± t·sd·sqrt(1 + 1/n)`; z when n < 2, with a 25 % CV).
+    fn from_stats(st: &FactorStats, source: String) -> Sourced {
+        let sd = if st.n >= 2 { st.sd } else { 0.25 * st.mean };
+        let t = if st.n >= 2 {
+            crate::factors::precision::t_quantile(0.975, (st.n - 1) as f64)
+        } else {
+            Z95
+        };
+        let half = t * sd * (1.0 + 1.0 / st.n.max(1) as f64).sqrt();
+        Sourced {
+            value: st.mean,
+            lo95: (st.mean - half).max(0.0),
+            hi95: st.mean + half,
+            source,
+        }
+    }
+}
+
+/// The published statistics of one segment.
+#[derive(Debug, Clone)]
+pub struct SegmentRow {
+    /// Segment index.
+    pub segment: usize,
+    /// Basis.
+    pub basis: Basis,
+    /// AADT with interval.
+    pub aadt: Interval,
+    /// AADT per direction (fwd, rev), where a permanent counter measured them.
+    pub aadt_dir: [Option<f64>; 2],
+    /// Factor group name.
+    pub group: String,
+    /// Heavy (4-13), single-unit (4-7), combination (8-13) shares.
+    pub heavy: Option<Sourced>,
+    /// Single-unit share.
+    pub single_unit: Option<Sourced>,
+    /// Combination share.
+    pub combination: Option<Sourced>,
+    /// K-factor.
+    pub k: Option<Sourced>,
+    /// D-factor.
+    pub d: Option<Sourced>,
+    /// Peak-hour factor where measured at the segment's counter or its group.
+    pub phf: Option<Sourced>,
+    /// Design-hour heavy share where measured.
+    pub design_hour_heavy: Option<f64>,
+    /// The count behind the figure: year(s), type, hours, number of counts.
+    pub count_years: String,
+    /// Count type (`continuous`, `vehicles`, `axles`, `classified`).
+    pub count_type: String,
+    /// Hours of data behind the figure.
+    pub count_hours: usize,
+    /// Counts combined.
+    pub counts: usize,
+}
+
+/// Observations for the spatial stage: every segment with a counter or a short count.
+pub fn observations(
+    data: &StudyData,
+    cont: &ContinuousOutput,
+    exp: &ExpansionOutput,
+) -> Vec<Observation> {
+    let mut obs = Vec::new();
+    let mut seen = vec![false; data.network.segments.len()];
+    for s in &cont.stations {
+        let seg = data.stations.stations[s.station].segment;
+        if !seen[seg] && s.aadt_value > 0.0 {
+            seen[seg] = true;
+            obs.push(Observation {
+                segment: seg,
+                log_aadt: s.aadt_value.ln(),
+                meas_var: s.aadt_log_sd.powi(2),
+            });
+        }
+    }
+    for (&seg, c) in &exp.segments {
+        if !seen[seg] && c.aadt > 0.0 {
+            seen[seg] = true;
+            obs.push(Observation {
+                segment: seg,
+                log_aadt: c.aadt.ln(),
+                meas_var: c.log_sd.powi(2),
+            });
+        }
+    }
+    obs.sort_by_key(|o| o.segment);
+    obs
+}
+
+fn network_stats(
+    factors: &FactorOutput,
+    pick: impl Fn(&crate::factors::stage::Group) -> Option<&FactorStats>,
+) -> Option<FactorStats> {
+    // The group with the most stations stands for the network when a segment's group has none.
+    factors
+        .groups
+        .iter()
+        .filter_map(|g| pick(g))
+        .max_by_key(|s| s.n)
+        .copied()
+}
+
+/// Builds every segment's row.
+pub fn assemble(
+    data: &StudyData,
+    cont: &ContinuousOutput,
+    factors: &FactorOutput,
+    exp: &ExpansionOutput,
+    spatial: &SpatialOutput,
+) -> Vec<SegmentRow> {
+    let net = &data.network;
+    let mut counter_of = vec![None; net.segments.len()];
+    for (i, s) in cont.stations.iter().enumerate() {
+        let seg = data.stations.stations[s.station].segment;
+        if counter_of[seg].is_none() {
+            counter_of[seg] = Some(i);
+        }
+    }
+    (0..net.segments.len())
+        .map(|seg| {
+            let group = &factors.groups[factors.segment_group[seg]];
+            let gname = format!("group:{}", group.name);
+            let oneway = net.segments[seg].oneway;
+            let from_group = |pick: fn(&crate::factors::stage::Group) -> Option<&FactorStats>| {
+                pick(group)
+                    .map(|st| Sourced::from_stats(st, gname.clone()))
+                    .or_else(|| {
+                        network_stats(factors, pick)
+                            .map(|st| Sourced::from_stats(&st, "network".into()))
+                    })
+            };
+            let mut row = SegmentRow {
+                segment: seg,
+                basis: Basis::Estimated,
+                aadt: Interval {
+                    value: f64::NAN,
+                    lo95: f64::NAN,
+                    hi95: f64::NAN,
+                },
+                aadt_dir: [None, None],
+                group: group.name.clone(),
+                heavy: from_group(|g| g.heavy_share.as_ref()),
+                single_unit: from_group(|g| g.single_unit_share.as_ref()),
+                combination: from_group(|g| g.combination_share.as_ref()),
+                k: from_group(|g| g.k30.as_ref()),
+                d: if oneway {
+                    Some(Sourced::measured(1.0, 0.0, "one_way"))
+                } else {
+                    from_group(|g| g.d.as_ref())
+                },
+                phf: from_group(|g| g.phf.as_ref()),
+                design_hour_heavy: None,
+                count_years: String::new(),
+                count_type: String::new(),
+                count_hours: 0,
+                counts: 0,
+            };
+            if let Some(ci) = counter_of[seg] {
+                let s = &cont.stations[ci];
+                let h = Z95 * s.aadt_log_sd;
+                row.basis = Basis::Continuous;
+                row.aadt = Interval {
+                    value: s.aadt_value,
+                    lo95: s.aadt_value * (-h).exp(),
+                    hi95: s.aadt_value * h.exp(),
+                };
+                row.aadt_dir = [0, 1].map(|i| {
+                    s.by_direction[i]
+                        .as_ref()
+                        .map(|a| a.aashto.unwrap_or(a.simple))
+                });
+                if let Some(c) = &s.classes {
+                    let m =
+                        |v: Option<f64>| v.map(|x| Sourced::measured(x, s.aadt_log_sd, "counter"));
+                    row.heavy = m(c.heavy_share).or(row.heavy);
+                    row.single_unit = m(c.single_unit_share).or(row.single_unit);
+                    row.combination = m(c.combination_share).or(row.combination);
+                }
+                if let Some(d) = &s.design {
+                    row.k = Some(Sourced::measured(d.k30, s.aadt_log_sd, "counter"));
+                    if s.d_measured && !oneway {
+                        row.d = Some(Sourced::measured(d.d, 0.02, "counter"));
+                    }
+                    row.design_hour_heavy = d.heavy_share;
+                }
+                if let Some(p) = s.phf {
+                    row.phf = Some(Sourced::measured(p, 0.02, "counter"));
+                }
+                row.count_years = s.aadt.year.to_string();
+                row.count_type = "continuous".into();
+                row.count_hours = s.hours.len();
+                row.counts = 1;
+            } else if let Some(c) = exp.segments.get(&seg) {
+                let h = Z95 * c.log_sd;
+                row.basis = Basis::ShortCount;
+                row.aadt = Interval {
+                    value: c.aadt,
+                    lo95: c.aadt * (-h).exp(),
+                    hi95: c.aadt * h.exp(),
+                };
+                let counts: Vec<_> = c.counts.iter().map(|&i| &exp.counts[i]).collect();
+                let mut years: Vec<i32> = counts.iter().map(|x| x.year).collect();
+                years.sort();
+                years.dedup();
+                row.count_years = years
+                    .iter()
+                    .map(|y| y.to_string())
+                    .collect::<Vec<_>>()
+                    .join(" ");
+                let mut kinds: Vec<&str> = counts
+                    .iter()
+                    .map(|x| {
+                        if x.classified {
+                            "classified"
+                        } else {
+                            x.measure
+                        }
+                    })
+                    .collect();
+                kinds.sort();
+                kinds.dedup();
+                row.count_type = kinds.join(" ");
+                row.count_hours = counts.iter().map(|x| x.hours).sum();
+                row.counts = counts.len();
+                let classified: Vec<_> =
+                    counts.iter().filter(|x| x.heavy_share.is_some()).collect();
+                if !classified.is_empty() {
+                    let n = classified.len() as f64;
+                    let mean = |f: fn(&&&crate::expansion::stage::ExpandedCount) -> Option<f64>| {
+                        classified.iter().filter_map(f).sum::<f64>() / n
+                    };
+                    // A short classified count's share carries its day-to-day spread: 15 % relative (common practice).
+                    row.heavy = Some(Sourced::measured(
+                        mean(|x| x.heavy_share),
+                        0.15,
+                        "short_count",
+                    ));
+                    row.single_unit = Some(Sourced::measured(
+                        mean(|x| x.single_unit_share),
+                        0.15,
+                        "short_count",
+                    ));
+                    row.combination = Some(Sourced::measured(
+                        mean(|x| x.combination_share),
+                        0.15,
+                        "short_count",
+                    ));
+                }
+            } else if let Some(e) = &spatial.estimates[seg] {
+                row.aadt = e.aadt;
+                row.count_type = "none".into();
+            }
+            row
+        })
+        .collect()
+}

@@ -1,0 +1,532 @@
+//! The spatial stage: AADT for every segment without a count.
+//!
+//! # Method
+//! Kriging with external drift on ln AADT (Wackernagel 2003, ch. 38; Hengl et al. 2007 show
+//! it equals regression-kriging). The drift is a single composite term, the prediction of a
+//! linear regression of ln AADT on segment attributes (functional class, area, ln lanes,
+//! speed limit where given) and the network route level ([`super::network_drift`]). One
+//! composite term, rather than every attribute as its own drift column, keeps local systems of
+//! 16 neighbours well conditioned while the regression uses every count; the kriging then
+//! re-scales the drift locally and interpolates what it misses.
+//!
+//! Each counted segment enters with its own measurement variance (the squared log sd of its
+//! AADT) as an observation-specific nugget, so a permanent counter weighs more than a short
+//! count. The covariance is an exponential model fitted by Cressie's weighted least squares to
+//! the empirical variogram of the regression residuals; the fitted nugget less the mean
+//! measurement variance is kept as micro-scale variation (segment-to-segment differences that
+//! are real), and an uncounted segment's variance includes it.
+//!
+//! Back-transform: mean `exp(m + v/2)` (lognormal bias correction, Cressie 1993 §3.2.2);
+//! interval `exp(m ± 1.96 √v)`, asymmetric and positive.
+//!
+//! # Validation
+//! Leave-one-out over every counted segment: the left-out segment leaves the regression, the
+//! kriging data and every route drift term. The variogram is kept from the full fit (its
+//! influence is small and refitting per fold would cost O(n³)); this is stated in the table.
+//! The same folds give two simpler estimators: the mean by functional class and area, and the
+//! regression alone.
+//!
+//! # Units
+//! AADT in vehicles/day; distances in km between segment midpoints (straight line).
+
+use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
+
+use super::network_drift::RouteNeighbours;
+use super::{
+    empirical_variogram, fit_variogram, CovarianceModel, Kriger, KrigingData, KrigingParams,
+    LogNormalEstimate, ModelKind, Target, VariogramFit, Z_95,
+};
+use crate::model::{Area, Network};
+
+/// Settings of the spatial stage (`[spatial]` in study.toml).
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+#[serde(default, deny_unknown_fields)]
+pub struct SpatialParams {
+    /// Counted segments in each local kriging system. Default 16.
+    pub neighbours: usize,
+    /// Reach of the route drift term along a route, km. Default 30.
+    pub route_reach_km: f64,
+    /// Lags of the empirical variogram. Default 12.
+    pub variogram_lags: usize,
+    /// Ridge penalty on the regression coefficients (guards against classes absent from the
+    /// counts). Default 1e-3.
+    pub ridge: f64,
+}
+
+impl Default for SpatialParams {
+    fn default() -> Self {
+        SpatialParams {
+            neighbours: 16,
+            route_reach_km: 30.0,
+            variogram_lags: 12,
+            ridge: 1e-3,
+        }
+    }
+}
+
+/// A counted segment as the spatial stage sees it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Observation {
+    /// Segment index.
+    pub segment: usize,
+    /// ln AADT.
+    pub log_aadt: f64,
+    /// Variance of ln AADT from its measurement.
+    pub meas_var: f64,
+}
+
+/// An estimate with a 95 % interval, vehicles/day.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Interval {
+    /// Bias-corrected mean.
+    pub value: f64,
+    /// Lower 95 % bound.
+    pub lo95: f64,
+    /// Upper 95 % bound.
+    pub hi95: f64,
+}
+
+impl Interval {
+    /// From a log-space mean and variance.
+    pub fn from_log(m: f64, v: f64) -> Interval {
+        match LogNormalEstimate::from_log(m, v.max(0.0), Z_95) {
+            Ok(e) => Interval {
+                value: e.mean,
+                lo95: e.lower,
+                hi95: e.upper,
+            },
+            Err(_) => Interval {
+                value: m.exp(),
+                lo95: m.exp(),
+                hi95: m.exp(),
+            },
+        }
+    }
+
+    /// Whether `x` lies inside.
+    pub fn covers(&self, x: f64) -> bool {
+        x >= self.lo95 && x <= self.hi95
+    }
+}
+
+/// The estimate for one uncounted segment.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SegmentEstimate {
+    /// AADT and interval.
+    pub aadt: Interval,
+    /// Log-space mean and variance.
+    pub log_mean: f64,
+    /// Log-space variance.
+    pub log_var: f64,
+    /// Neighbours used.
+    pub neighbours: usize,
+    /// Fallbacks the kriging system needed, as text (empty when none).
+    pub fallback: String,
+}
+
+/// One leave-one-out fold.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CvPoint {
+    /// Segment index.
+    pub segment: usize,
+    /// Observed AADT.
+    pub observed: f64,
+    /// Kriging with external drift.
+    pub kriged: Interval,
+    /// Regression alone.
+    pub regression: Interval,
+    /// Mean by functional class and area.
+    pub class_mean: Interval,
+}
+
+/// What the stage produced.
+#[derive(Debug, Clone, Default)]
+pub struct SpatialOutput {
+    /// Per segment: the estimate, for segments without a count.
+    pub estimates: Vec<Option<SegmentEstimate>>,
+    /// The variogram fit, when it succeeded.
+    pub variogram: Option<VariogramFit>,
+    /// The covariance model used.
+    pub model: Option<CovarianceModel>,
+    /// How the model was chosen.
+    pub model_note: String,
+    /// Regression coefficients, by term name.
+    pub coefficients: Vec<(String, f64)>,
+    /// Residual variance of the regression.
+    pub residual_var: f64,
+    /// Leave-one-out folds.
+    pub cv: Vec<CvPoint>,
+}
+
+/// Regression terms of a segment.
+fn covariates(
+    net: &Network,
+    seg: usize,
+    level: Option<f64>,
+    speed_fill: &[f64; 8],
+    full: bool,
+) -> Vec<f64> {
+    let s = &net.segments[seg];
+    let fc = s.functional_class.code() as usize;
+    let mut x = vec![1.0];
+    if full {
+        for c in 2..=7 {
+            x.push(f64::from(fc == c));
+        }
+    } else {
+        x.push(f64::from(matches!(fc, 3 | 4)));
+        x.push(f64::from(fc >= 5));
+    }
+    x.push(f64::from(s.area == Area::Urban));
+    x.push((s.lanes as f64).ln());
+    if full {
+        x.push(s.speed_limit_kph.unwrap_or(speed_fill[fc]) / 100.0);
+    }
+    x.push(level.unwrap_or(0.0));
+    x.push(f64::from(level.is_some()));
+    x
+}
+
+/// Names of the regression terms, in [`covariates`] order.
+fn term_names(full: bool) -> Vec<String> {
+    let mut n = vec!["intercept".to_string()];
+    if full {
+        for c in 2..=7 {
+            n.push(format!("class_{c}"));
+        }
+    } else {
+        n.push("arterial".into());
+        n.push("collector_local".into());
+    }
+    n.push("urban".into());
+    n.push("ln_lanes".into());
+    if full {
+        n.push("speed_limit_per_100kph".into());
+    }
+    n.push("route_level".into());
+    n.push("has_route_level".into());
+    n
+}
+
+/// Ridge least squares `(XᵀX + λ diag(0,1,..,1)) β = Xᵀy`; the intercept is not penalised.
+fn fit_ols(x: &[Vec<f64>], y: &[f64], ridge: f64) -> Option<Vec<f64>> {
+    let p = x.first()?.len();
+    let n = x.len();
+    let xm = nalgebra::DMatrix::from_fn(n, p, |i, j| x[i][j]);
+    let yv = nalgebra::DVector::from_column_slice(y);
+    let mut a = xm.transpose() * &xm;
+    for j in 1..p {
+        a[(j, j)] += ridge * n as f64;
+    }
+    let b = xm.transpose() * yv;
+    a.clone()
+        .cholesky()
+        .map(|c| c.solve(&b))
+        .or_else(|| a.svd(true, true).solve(&b, 1e-12).ok())
+        .map(|v| v.iter().copied().collect())
+}
+
+fn dot(a: &[f64], b: &[f64]) -> f64 {
+    a.iter().zip(b).map(|(x, y)| x * y).sum()
+}
+
+/// Mean speed limit per functional class, for segments that give none.
+fn speed_fill(net: &Network) -> [f64; 8] {
+    let mut sum = [0.0; 8];
+    let mut n = [0usize; 8];
+    for s in &net.segments {
+        if let Some(v) = s.speed_limit_kph {
+            let c = s.functional_class.code() as usize;
+            sum[c] += v;
+            n[c] += 1;
+        }
+    }
+    let all = sum.iter().sum::<f64>() / n.iter().sum::<usize>().max(1) as f64;
+    let mut out = [all; 8];
+    for c in 1..8 {
+        if n[c] > 0 {
+            out[c] = sum[c] / n[c] as f64;
+        }
+    }
+    out
+}
+
+/// Everything the regression and kriging need, for one set of observations.
+struct Fit {
+    beta: Vec<f64>,
+    full: bool,
+    residual_var: f64,
+}
+
+fn regression(
+    net: &Network,
+    obs: &[Observation],
+    y_by_seg: &[f64],
+    routes: &RouteNeighbours,
+    sf: &[f64; 8],
+    exclude: Option<usize>,
+    ridge: f64,
+) -> Option<Fit> {
+    let kept: Vec<&Observation> = obs.iter().filter(|o| Some(o.segment) != exclude).collect();
+    let full = kept.len() >= 40;
+    let x: Vec<Vec<f64>> = kept
+        .iter()
+        .map(|o| {
+            covariates(
+                net,
+                o.segment,
+                routes.level(o.segment, y_by_seg, exclude),
+                sf,
+                full,
+            )
+        })
+        .collect();
+    let y: Vec<f64> = kept.iter().map(|o| o.log_aadt).collect();
+    let beta = fit_ols(&x, &y, ridge)?;
+    let p = beta.len();
+    let rss: f64 = x
+        .iter()
+        .zip(&y)
+        .map(|(xi, yi)| (yi - dot(xi, &beta)).powi(2))
+        .sum();
+    let residual_var = rss / (kept.len().saturating_sub(p)).max(1) as f64;
+    Some(Fit {
+        beta,
+        full,
+        residual_var,
+    })
+}
+
+fn drift_of(
+    net: &Network,
+    fit: &Fit,
+    seg: usize,
+    y_by_seg: &[f64],
+    routes: &RouteNeighbours,
+    sf: &[f64; 8],
+    exclude: Option<usize>,
+) -> f64 {
+    dot(
+        &covariates(net, seg, routes.level(seg, y_by_seg, exclude), sf, fit.full),
+        &fit.beta,
+    )
+}
+
+/// Fits the covariance model to the regression residuals.
+fn fit_model(
+    xy: &[[f64; 2]],
+    resid: &[f64],
+    meas_var: &[f64],
+    lags: usize,
+) -> (Option<VariogramFit>, CovarianceModel, String) {
+    let var = resid.iter().map(|r| r * r).sum::<f64>() / resid.len().max(1) as f64;
+    let (mut xmin, mut xmax, mut ymin, mut ymax) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
+    for p in xy {
+        xmin = xmin.min(p[0]);
+        xmax = xmax.max(p[0]);
+        ymin = ymin.min(p[1]);
+        ymax = ymax.max(p[1]);
+    }
+    let diag = ((xmax - xmin).powi(2) + (ymax - ymin).powi(2))
+        .sqrt()
+        .max(1e-3);
+    let lag_km = diag / 2.0 / lags as f64;
+    let mean_meas = meas_var.iter().sum::<f64>() / meas_var.len().max(1) as f64;
+    let fallback = CovarianceModel::new(ModelKind::Exponential, var.max(1e-6), diag / 3.0, 0.0)
+        .expect("positive parameters");
+    let fit = empirical_variogram(xy, resid, lag_km, lags)
+        .and_then(|ev| fit_variogram(&ev.lags, ModelKind::Exponential));
+    match fit {
+        Ok(f) => {
+            let mut m = f.model;
+            m.nugget = (m.nugget - mean_meas).max(0.0);
+            let note = format!(
+                "exponential model fitted by Cressie WLS to {} lags of {:.2} km; nugget less mean measurement variance {:.4}",
+                f.lags_used, lag_km, mean_meas
+            );
+            (Some(f), m, note)
+        }
+        Err(e) => (
+            None,
+            fallback,
+            format!("variogram fit failed ({e}); exponential model with sill = residual variance and range = diagonal/3"),
+        ),
+    }
+}
+
+fn fallback_text(p: &super::Prediction) -> String {
+    p.fallbacks
+        .iter()
+        .map(|f| format!("{f:?}"))
+        .collect::<Vec<_>>()
+        .join("; ")
+}
+
+/// Runs the stage: estimates for every segment that is not in `obs`, and the validation.
+pub fn run(net: &Network, obs: &[Observation], params: &SpatialParams) -> SpatialOutput {
+    let n_seg = net.segments.len();
+    let mut out = SpatialOutput {
+        estimates: vec![None; n_seg],
+        ..SpatialOutput::default()
+    };
+    if obs.len() < 3 {
+        out.model_note = format!("only {} counted segments: no spatial estimate", obs.len());
+        return out;
+    }
+    let mids = net.midpoints_km();
+    let mut counted = vec![false; n_seg];
+    let mut y_by_seg = vec![f64::NAN; n_seg];
+    for o in obs {
+        counted[o.segment] = true;
+        y_by_seg[o.segment] = o.log_aadt;
+    }
+    let routes = RouteNeighbours::build(net, &counted, params.route_reach_km);
+    let sf = speed_fill(net);
+    let Some(fit) = regression(net, obs, &y_by_seg, &routes, &sf, None, params.ridge) else {
+        out.model_note = "the drift regression could not be solved".into();
+        return out;
+    };
+    out.coefficients = term_names(fit.full)
+        .into_iter()
+        .zip(fit.beta.iter().copied())
+        .collect();
+    out.residual_var = fit.residual_var;
+    let f_obs: Vec<f64> = obs
+        .iter()
+        .map(|o| drift_of(net, &fit, o.segment, &y_by_seg, &routes, &sf, None))
+        .collect();
+    let xy: Vec<[f64; 2]> = obs.iter().map(|o| mids[o.segment]).collect();
+    let resid: Vec<f64> = obs
+        .iter()
+        .zip(&f_obs)
+        .map(|(o, f)| o.log_aadt - f)
+        .collect();
+    let meas: Vec<f64> = obs.iter().map(|o| o.meas_var).collect();
+    let (vfit, model, note) = fit_model(&xy, &resid, &meas, params.variogram_lags);
+    out.variogram = vfit;
+    out.model = Some(model);
+    out.model_note = note;
+    let kparams = KrigingParams {
+        neighbours: params.neighbours,
+        ..KrigingParams::new(model)
+    };
+    let data = KrigingData {
+        xy: xy.clone(),
+        value: obs.iter().map(|o| o.log_aadt).collect(),
+        drift: f_obs.iter().map(|f| vec![*f]).collect(),
+        meas_var: meas.clone(),
+    };
+    let Ok(kriger) = Kriger::new(data, kparams.clone()) else {
+        out.model_note
+            .push_str("; kriging system could not be built");
+        return out;
+    };
+    let targets: Vec<usize> = (0..n_seg).filter(|&s| !counted[s]).collect();
+    let tgt: Vec<Target> = targets
+        .iter()
+        .map(|&s| Target {
+            xy: mids[s],
+            drift: vec![drift_of(net, &fit, s, &y_by_seg, &routes, &sf, None)],
+        })
+        .collect();
+    for (&s, p) in targets.iter().zip(kriger.predict_many(&tgt)) {
+        let est = match p {
+            Ok(p) => SegmentEstimate {
+                aadt: Interval::from_log(p.value, p.variance_with_nugget),
+                log_mean: p.value,
+                log_var: p.variance_with_nugget,
+                neighbours: p.neighbours.len(),
+                fallback: fallback_text(&p),
+            },
+            Err(e) => {
+                // Regression alone, with its residual variance, when kriging cannot solve.
+                let m = tgt[targets.iter().position(|&t| t == s).expect("target")].drift[0];
+                SegmentEstimate {
+                    aadt: Interval::from_log(m, fit.residual_var),
+                    log_mean: m,
+                    log_var: fit.residual_var,
+                    neighbours: 0,
+                    fallback: format!("regression only: {e}"),
+                }
+            }
+        };
+        out.estimates[s] = Some(est);
+    }
+    out.cv = (0..obs.len())
+        .into_par_iter()
+        .filter_map(|j| {
+            cv_fold(
+                net, obs, j, &y_by_seg, &routes, &sf, &mids, &kparams, params,
+            )
+        })
+        .collect();
+    out
+}
+
+#[allow(clippy::too_many_arguments)]
+fn cv_fold(
+    net: &Network,
+    obs: &[Observation],
+    j: usize,
+    y_by_seg: &[f64],
+    routes: &RouteNeighbours,
+    sf: &[f64; 8],
+    mids: &[[f64; 2]],
+    kparams: &KrigingParams,
+    params: &SpatialParams,
+) -> Option<CvPoint> {
+    let target = obs[j];
+    let excl = Some(target.segment);
+    let fit = regression(net, obs, y_by_seg, routes, sf, excl, params.ridge)?;
+    let others: Vec<&Observation> = obs.iter().filter(|o| o.segment != target.segment).collect();
+    let data = KrigingData {
+        xy: others.iter().map(|o| mids[o.segment]).collect(),
+        value: others.iter().map(|o| o.log_aadt).collect(),
+        drift: others
+            .iter()
+            .map(|o| vec![drift_of(net, &fit, o.segment, y_by_seg, routes, sf, excl)])
+            .collect(),
+        meas_var: others.iter().map(|o| o.meas_var).collect(),
+    };
+    let f_j = drift_of(net, &fit, target.segment, y_by_seg, routes, sf, excl);
+    // The observed value carries its own measurement error: judge coverage against the
+    // prediction variance plus that error.
+    let kriged = Kriger::new(data, kparams.clone())
+        .ok()
+        .and_then(|k| k.predict(mids[target.segment], &[f_j]).ok())
+        .map(|p| Interval::from_log(p.value, p.variance_with_nugget + target.meas_var))
+        .unwrap_or_else(|| Interval::from_log(f_j, fit.residual_var + target.meas_var));
+    let regression = Interval::from_log(f_j, fit.residual_var + target.meas_var);
+    let seg = &net.segments[target.segment];
+    let same = |o: &&Observation, strict: bool| {
+        let s = &net.segments[o.segment];
+        s.functional_class == seg.functional_class && (!strict || s.area == seg.area)
+    };
+    let mut pool: Vec<f64> = others
+        .iter()
+        .filter(|o| same(o, true))
+        .map(|o| o.log_aadt)
+        .collect();
+    if pool.len() < 2 {
+        pool = others
+            .iter()
+            .filter(|o| same(o, false))
+            .map(|o| o.log_aadt)
+            .collect();
+    }
+    if pool.len() < 2 {
+        pool = others.iter().map(|o| o.log_aadt).collect();
+    }
+    let n = pool.len() as f64;
+    let m = pool.iter().sum::<f64>() / n;
+    let v = pool.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (n - 1.0).max(1.0);
+    let class_mean = Interval::from_log(m, v * (1.0 + 1.0 / n) + target.meas_var);
+    Some(CvPoint {
+        segment: target.segment,
+        observed: target.log_aadt.exp(),
+        kriged,
+        regression,
+        class_mean,
+    })
+}
