@@ -1,0 +1,577 @@
+//! Rule tests on hand-made station-days from a synthetic commuter road.
+//!
+//! Expected outcomes come from the construction of the fixtures (a fault injected on a known
+//! day), not from earlier output of this code.
+
+use std::collections::BTreeMap;
+
+use chrono::{Datelike, NaiveDate};
+use rand::{Rng, SeedableRng};
+use rand_chacha::ChaCha8Rng;
+use rand_distr::{Distribution, Normal, Poisson};
+
+use super::*;
+use crate::model::counts::hour_mask;
+use crate::model::{DayCounts, DirectionDay, CLASS_COUNT};
+
+const OFFSET: i32 = -300;
+const FIRST_SLOT: usize = 2;
+
+/// Relative hourly weights of a direction: fwd has the morning peak on working days, rev
+/// the evening one; weekends have one midday hump.
+fn shape(dir: usize, weekday: u32, h: usize) -> f64 {
+    let h = h as f64;
+    let g = |c: f64, w: f64| (-(h - c).powi(2) / (2.0 * w * w)).exp();
+    let day = g(13.0, 4.0);
+    if weekday >= 5 {
+        return 0.05 + 1.5 * day;
+    }
+    let (am, pm) = if dir == 0 { (3.0, 1.0) } else { (1.0, 3.0) };
+    0.05 + day + am * g(8.0, 1.2) + pm * g(17.0, 1.5)
+}
+
+/// Expected hourly volumes of a day (24 clock hours) for a station of `daily` veh/day/direction.
+fn profile(dir: usize, weekday: u32, daily: f64) -> Vec<f64> {
+    let w: Vec<f64> = (0..24).map(|h| shape(dir, weekday, h)).collect();
+    let sum: f64 = w.iter().sum();
+    let f = if weekday >= 5 { 0.75 } else { 1.0 };
+    w.iter().map(|x| x / sum * daily * f).collect()
+}
+
+struct Synth {
+    rng: ChaCha8Rng,
+    daily: f64,
+    day_noise: f64,
+}
+
+impl Synth {
+    fn new(seed: u64, daily: f64) -> Synth {
+        Synth {
+            rng: ChaCha8Rng::seed_from_u64(seed),
+            daily,
+            day_noise: 0.08,
+        }
+    }
+
+    /// One clean day: both directions, 24 hours, day factor x Poisson noise.
+    fn day_values(&mut self, date: NaiveDate) -> [Vec<u32>; 2] {
+        let wd = date.weekday().num_days_from_monday();
+        let factor = Normal::new(1.0, self.day_noise)
+            .unwrap()
+            .sample(&mut self.rng)
+            .max(0.5);
+        [0, 1].map(|d| {
+            profile(d, wd, self.daily)
+                .iter()
+                .map(|&m| {
+                    let lam = m * factor;
+                    if lam <= 0.0 {
+                        0
+                    } else {
+                        Poisson::new(lam).unwrap().sample(&mut self.rng) as u32
+                    }
+                })
+                .collect()
+        })
+    }
+}
+
+/// A DayCounts with the given hourly vehicles per direction (23, 24 or 25 values; `None`
+/// hours are missing).
+fn day_counts(date: NaiveDate, dirs: &[(Direction, Vec<Option<u32>>)]) -> DayCounts {
+    let n = dirs[0].1.len();
+    let mut day = DayCounts::new(0, date, OFFSET);
+    let last_offset = OFFSET - (n as i32 - 24) * 60;
+    day.earliest = (FIRST_SLOT * 4, OFFSET);
+    day.latest = ((FIRST_SLOT + n) * 4 - 1, last_offset);
+    for (d, vals) in dirs {
+        let mut dd = DirectionDay::default();
+        for (k, v) in vals.iter().enumerate() {
+            if let Some(v) = v {
+                let slot = FIRST_SLOT + k;
+                dd.covered |= hour_mask(slot);
+                dd.vehicle_quarters |= hour_mask(slot);
+                dd.vehicles[slot] = *v;
+                dd.records += 1;
+            }
+        }
+        day.dirs[d.index()] = Some(Box::new(dd));
+    }
+    day
+}
+
+fn full(v: &[u32]) -> Vec<Option<u32>> {
+    v.iter().map(|&x| Some(x)).collect()
+}
+
+fn date0() -> NaiveDate {
+    NaiveDate::from_ymd_opt(2025, 1, 6).unwrap() // a Monday
+}
+
+/// A station of `n` clean days from `date0`, with `edit` applied to the values of each day.
+fn station(
+    n: usize,
+    seed: u64,
+    daily: f64,
+    mut edit: impl FnMut(usize, NaiveDate, &mut [Vec<u32>; 2]) -> Option<Vec<Option<u32>>>,
+) -> BTreeMap<NaiveDate, DayCounts> {
+    let mut s = Synth::new(seed, daily);
+    let mut days = BTreeMap::new();
+    for i in 0..n {
+        let date = date0() + chrono::Duration::days(i as i64);
+        let mut v = s.day_values(date);
+        let fwd_override = edit(i, date, &mut v);
+        let fwd = fwd_override.unwrap_or_else(|| full(&v[0]));
+        let day = day_counts(
+            date,
+            &[(Direction::Fwd, fwd), (Direction::Rev, full(&v[1]))],
+        );
+        days.insert(date, day);
+    }
+    days
+}
+
+fn findings_on(f: &[QcFinding], date: NaiveDate) -> Vec<&QcFinding> {
+    f.iter().filter(|x| x.date == date).collect()
+}
+
+fn rejected_on(f: &[QcFinding], date: NaiveDate, rule: QcRule) -> bool {
+    f.iter()
+        .any(|x| x.date == date && x.rule == rule && x.action == QcAction::Rejected)
+}
+
+const FAULT_DAY: usize = 37; // a Wednesday
+
+fn run_with(
+    edit: impl FnMut(usize, NaiveDate, &mut [Vec<u32>; 2]) -> Option<Vec<Option<u32>>>,
+) -> (Vec<QcFinding>, NaiveDate) {
+    let days = station(70, 7, 8000.0, edit);
+    let (f, _) = check_station(0, &days, false, &QcParams::default());
+    (f, date0() + chrono::Duration::days(FAULT_DAY as i64))
+}
+
+#[test]
+fn clean_reference_day_has_no_rejection() {
+    let (f, d) = run_with(|_, _, _| None);
+    assert!(
+        findings_on(&f, d)
+            .iter()
+            .all(|x| x.action != QcAction::Rejected),
+        "{:?}",
+        findings_on(&f, d)
+    );
+}
+
+#[test]
+fn flat_run_fires_on_a_stuck_sensor() {
+    let (f, d) = run_with(|i, _, v| {
+        if i == FAULT_DAY {
+            let x = v[0][10];
+            v[0][10..17].iter_mut().for_each(|y| *y = x);
+        }
+        None
+    });
+    assert!(
+        rejected_on(&f, d, QcRule::FlatRun),
+        "{:?}",
+        findings_on(&f, d)
+    );
+    assert!(!f.iter().any(|x| x.rule == QcRule::FlatRun && x.date != d));
+}
+
+#[test]
+fn zero_run_fires_on_a_dead_sensor_in_busy_hours() {
+    let (f, d) = run_with(|i, _, v| {
+        if i == FAULT_DAY {
+            v[0][9..13].iter_mut().for_each(|y| *y = 0);
+        }
+        None
+    });
+    assert!(
+        rejected_on(&f, d, QcRule::ZeroRun),
+        "{:?}",
+        findings_on(&f, d)
+    );
+    assert!(!f.iter().any(|x| x.rule == QcRule::ZeroRun && x.date != d));
+}
+
+#[test]
+fn spike_fires_on_one_hour_times_six() {
+    let (f, d) = run_with(|i, _, v| {
+        if i == FAULT_DAY {
+            v[0][14] *= 6;
+        }
+        None
+    });
+    assert!(
+        rejected_on(&f, d, QcRule::Spike),
+        "{:?}",
+        findings_on(&f, d)
+    );
+    assert!(!f.iter().any(|x| x.rule == QcRule::Spike && x.date != d));
+}
+
+#[test]
+fn level_shift_fires_on_a_day_that_halves_from_noon() {
+    let (f, d) = run_with(|i, _, v| {
+        if i == FAULT_DAY {
+            v[0][12..].iter_mut().for_each(|y| *y /= 2);
+        }
+        None
+    });
+    assert!(
+        rejected_on(&f, d, QcRule::LevelShift),
+        "{:?}",
+        findings_on(&f, d)
+    );
+    assert!(!f
+        .iter()
+        .any(|x| x.rule == QcRule::LevelShift && x.date != d));
+}
+
+#[test]
+fn incomplete_fires_on_six_missing_hours() {
+    let (f, d) = run_with(|i, _, v| {
+        (i == FAULT_DAY).then(|| {
+            let mut o = full(&v[0]);
+            o[3..9].iter_mut().for_each(|y| *y = None);
+            o
+        })
+    });
+    assert!(
+        rejected_on(&f, d, QcRule::Incomplete),
+        "{:?}",
+        findings_on(&f, d)
+    );
+    assert!(!f
+        .iter()
+        .any(|x| x.rule == QcRule::Incomplete && x.date != d));
+}
+
+#[test]
+fn swapped_directions_reject_both_directions() {
+    let (f, d) = run_with(|i, _, v| {
+        if i == FAULT_DAY {
+            v.swap(0, 1);
+        }
+        None
+    });
+    let hits: Vec<_> = f
+        .iter()
+        .filter(|x| x.rule == QcRule::SwappedDirections)
+        .collect();
+    assert_eq!(hits.len(), 2, "{hits:?}");
+    assert!(hits
+        .iter()
+        .all(|x| x.date == d && x.action == QcAction::Rejected));
+    assert_eq!(hits[0].direction, Direction::Fwd);
+    assert_eq!(hits[1].direction, Direction::Rev);
+}
+
+#[test]
+fn daily_deviation_and_imbalance_flag_a_direction_at_double_volume() {
+    let (f, d) = run_with(|i, _, v| {
+        if i == FAULT_DAY {
+            v[0].iter_mut().for_each(|y| *y *= 2);
+        }
+        None
+    });
+    let on = findings_on(&f, d);
+    assert!(on.iter().all(|x| x.action == QcAction::Flagged), "{on:?}");
+    assert!(on.iter().any(|x| x.rule == QcRule::DailyDeviation));
+    assert!(on
+        .iter()
+        .any(|x| x.rule == QcRule::DirectionalImbalance && x.direction == Direction::Fwd));
+}
+
+#[test]
+fn holiday_at_sixty_percent_with_normal_shape_is_at_most_flagged() {
+    let (f, d) = run_with(|i, _, v| {
+        if i == FAULT_DAY {
+            for dir in v.iter_mut() {
+                dir.iter_mut()
+                    .for_each(|y| *y = (*y as f64 * 0.6).round() as u32);
+            }
+        }
+        None
+    });
+    let on = findings_on(&f, d);
+    assert!(on.iter().all(|x| x.action == QcAction::Flagged), "{on:?}");
+    assert!(on.iter().any(|x| x.rule == QcRule::DailyDeviation));
+}
+
+#[test]
+fn clock_change_days_of_23_and_25_hours_are_complete() {
+    let mut s = Synth::new(3, 8000.0);
+    let mut days = BTreeMap::new();
+    for i in 0..40 {
+        let date = date0() + chrono::Duration::days(i);
+        let v = s.day_values(date);
+        let fwd: Vec<Option<u32>>;
+        let rev: Vec<Option<u32>>;
+        match i {
+            // Spring forward: the 02:00 hour does not exist.
+            20 => {
+                fwd = v[0]
+                    .iter()
+                    .enumerate()
+                    .filter(|(h, _)| *h != 2)
+                    .map(|(_, &x)| Some(x))
+                    .collect();
+                rev = v[1]
+                    .iter()
+                    .enumerate()
+                    .filter(|(h, _)| *h != 2)
+                    .map(|(_, &x)| Some(x))
+                    .collect();
+            }
+            // Fall back: the 01:00 hour comes twice.
+            27 => {
+                let rep = |x: &Vec<u32>| {
+                    let mut o: Vec<Option<u32>> = x.iter().map(|&y| Some(y)).collect();
+                    o.insert(2, Some(x[1]));
+                    o
+                };
+                fwd = rep(&v[0]);
+                rev = rep(&v[1]);
+            }
+            _ => {
+                fwd = full(&v[0]);
+                rev = full(&v[1]);
+            }
+        }
+        let day = day_counts(date, &[(Direction::Fwd, fwd), (Direction::Rev, rev)]);
+        days.insert(date, day);
+    }
+    let spring = date0() + chrono::Duration::days(20);
+    let fall = date0() + chrono::Duration::days(27);
+    assert_eq!(days[&spring].day_hours().len(), 23);
+    assert_eq!(days[&fall].day_hours().len(), 25);
+    let (f, n) = check_station(0, &days, false, &QcParams::default());
+    assert_eq!(n, 80);
+    for d in [spring, fall] {
+        let on = findings_on(&f, d);
+        assert!(on.iter().all(|x| x.action != QcAction::Rejected), "{on:?}");
+    }
+}
+
+#[test]
+fn low_volume_night_zeros_and_repeats_do_not_fire() {
+    // 300 veh/day/direction: night hours carry 0-3 vehicles.
+    let days = station(70, 11, 300.0, |_, _, _| None);
+    let night_zeros = days
+        .values()
+        .filter(|d| {
+            d.dir(Direction::Fwd).unwrap().vehicles[FIRST_SLOT..FIRST_SLOT + 5].contains(&0)
+        })
+        .count();
+    assert!(night_zeros > 10, "fixture should have night zeros");
+    let (f, _) = check_station(0, &days, false, &QcParams::default());
+    assert!(
+        !f.iter()
+            .any(|x| matches!(x.rule, QcRule::ZeroRun | QcRule::FlatRun)),
+        "{f:?}"
+    );
+}
+
+#[test]
+fn short_count_without_profile_uses_neighbouring_hours() {
+    let mut s = Synth::new(5, 6000.0);
+    let date = date0() + chrono::Duration::days(1);
+    let v = s.day_values(date);
+    let mut spiky = v[0].clone();
+    spiky[14] *= 8;
+    let mut dead = v[1].clone();
+    dead[9..13].iter_mut().for_each(|y| *y = 0);
+    let mut days = BTreeMap::new();
+    days.insert(
+        date,
+        day_counts(
+            date,
+            &[
+                (Direction::Fwd, full(&spiky)),
+                (Direction::Rev, full(&dead)),
+            ],
+        ),
+    );
+    let (f, _) = check_station(0, &days, false, &QcParams::default());
+    assert!(f
+        .iter()
+        .any(|x| x.rule == QcRule::Spike && x.direction == Direction::Fwd));
+    assert!(f
+        .iter()
+        .any(|x| x.rule == QcRule::ZeroRun && x.direction == Direction::Rev));
+    // The clean twin day fires nothing structural.
+    let mut days = BTreeMap::new();
+    days.insert(
+        date,
+        day_counts(
+            date,
+            &[(Direction::Fwd, full(&v[0])), (Direction::Rev, full(&v[1]))],
+        ),
+    );
+    let (f, _) = check_station(0, &days, false, &QcParams::default());
+    assert!(f.is_empty(), "{f:?}");
+}
+
+#[test]
+fn class_mismatch_flags_an_implausible_mix_only() {
+    let mut s = Synth::new(9, 4000.0);
+    let mut days = BTreeMap::new();
+    for i in 0..10 {
+        let date = date0() + chrono::Duration::days(i);
+        let v = s.day_values(date);
+        let mut day = day_counts(date, &[(Direction::Fwd, full(&v[0]))]);
+        let dd = day.dirs[0].as_mut().unwrap();
+        dd.class_quarters = dd.vehicle_quarters;
+        let total: u64 = v[0].iter().map(|&x| x as u64).sum();
+        let heavy = if i == 4 { total * 9 / 10 } else { total / 10 };
+        let mut c = [0u64; CLASS_COUNT];
+        c[1] = total - heavy;
+        c[8] = heavy;
+        dd.classes = c;
+        days.insert(date, day);
+    }
+    let (f, _) = check_station(0, &days, true, &QcParams::default());
+    let hits: Vec<_> = f
+        .iter()
+        .filter(|x| x.rule == QcRule::ClassMismatch)
+        .collect();
+    assert_eq!(hits.len(), 1, "{f:?}");
+    assert_eq!(hits[0].date, date0() + chrono::Duration::days(4));
+    assert_eq!(hits[0].action, QcAction::Flagged);
+}
+
+// ---------------------------------------------------------------- statistical acceptance
+
+#[derive(Clone, Copy, Debug)]
+enum Fault {
+    Stuck,
+    Dead,
+    Spike,
+    Shift,
+    Partial,
+    Swap,
+}
+
+/// Fraction of the `faulty` direction-days (fwd, or the pair for swaps) that got any finding.
+fn caught_share(fault: Fault, seed: u64) -> (f64, usize) {
+    let n_days = 250;
+    let mut rng = ChaCha8Rng::seed_from_u64(seed ^ 0xfa17);
+    // Every 5th day is faulty: 50 days.
+    let faulty: Vec<usize> = (0..n_days).filter(|i| i % 5 == 2).collect();
+    let days = station(n_days, seed, 8000.0, |i, date, v| {
+        if i % 5 != 2 {
+            return None;
+        }
+        let wd = date.weekday().num_days_from_monday();
+        match fault {
+            Fault::Stuck => {
+                let start = rng.gen_range(6..=14);
+                let len = rng.gen_range(5..=10);
+                let x = v[0][start].max(1);
+                v[0][start..start + len].iter_mut().for_each(|y| *y = x);
+            }
+            Fault::Dead => {
+                let start = rng.gen_range(7..=14);
+                let len = rng.gen_range(3..=8);
+                v[0][start..start + len].iter_mut().for_each(|y| *y = 0);
+            }
+            Fault::Spike => {
+                let h = rng.gen_range(6..=20);
+                let k = rng.gen_range(5.0..10.0);
+                v[0][h] = (v[0][h] as f64 * k).round() as u32;
+            }
+            Fault::Shift => {
+                let h = rng.gen_range(4..=20);
+                let k = if rng.gen_bool(0.5) { 0.5 } else { 1.6 };
+                v[0][h..]
+                    .iter_mut()
+                    .for_each(|y| *y = (*y as f64 * k).round() as u32);
+            }
+            Fault::Partial => {
+                let start = rng.gen_range(0..=16);
+                let len = rng.gen_range(6..=8);
+                let mut o = full(&v[0]);
+                o[start..start + len].iter_mut().for_each(|y| *y = None);
+                return Some(o);
+            }
+            Fault::Swap => {
+                // Only working days have distinct directional shapes.
+                if wd < 5 {
+                    v.swap(0, 1);
+                }
+            }
+        }
+        None
+    });
+    let (f, _) = check_station(0, &days, false, &QcParams::default());
+    let mut caught = 0;
+    let mut total = 0;
+    for i in faulty {
+        let date = date0() + chrono::Duration::days(i as i64);
+        if matches!(fault, Fault::Swap) && date.weekday().num_days_from_monday() >= 5 {
+            continue;
+        }
+        total += 1;
+        if f.iter()
+            .any(|x| x.date == date && x.direction == Direction::Fwd)
+        {
+            caught += 1;
+        }
+    }
+    (caught as f64 / total as f64, total)
+}
+
+#[test]
+fn clean_days_are_rarely_rejected() {
+    let mut rejected = 0;
+    let mut total = 0;
+    for (seed, daily) in [(21, 8000.0), (22, 2000.0), (23, 400.0)] {
+        let days = station(200, seed, daily, |_, _, _| None);
+        let (f, n) = check_station(0, &days, false, &QcParams::default());
+        let r: HashSet<(NaiveDate, Direction)> = f
+            .iter()
+            .filter(|x| x.action == QcAction::Rejected)
+            .map(|x| (x.date, x.direction))
+            .collect();
+        rejected += r.len();
+        eprintln!(
+            "daily {daily}: {} rejected of {n}; findings {}",
+            r.len(),
+            f.len()
+        );
+        total += n;
+        assert!(
+            (r.len() as f64) < 0.01 * n as f64,
+            "daily {daily}: {} of {n} rejected: {:?}",
+            r.len(),
+            f.iter()
+                .filter(|x| x.action == QcAction::Rejected)
+                .collect::<Vec<_>>()
+        );
+    }
+    assert_eq!(total, 1200);
+    assert!(rejected <= 6);
+}
+
+#[test]
+fn injected_faults_are_caught() {
+    for fault in [
+        Fault::Stuck,
+        Fault::Dead,
+        Fault::Spike,
+        Fault::Shift,
+        Fault::Partial,
+        Fault::Swap,
+    ] {
+        let (share, n) = caught_share(fault, 31);
+        eprintln!("{fault:?}: {share} of {n}");
+        assert!(n >= 30);
+        assert!(
+            share >= 0.95,
+            "{fault:?}: caught {:.0} % of {n}",
+            share * 100.0
+        );
+    }
+}
