@@ -25,7 +25,7 @@
 //! | `zero_run` | consecutive zero hours where >= `zero_run_min_expected` vehicles are expected (half the typical volume) | rejected |
 //! | `spike` | one hour >= `spike_min_ratio` x expected and `spike_min_z` deviations above it | rejected |
 //! | `level_shift` | the day's level against the profile steps by >= `level_shift_min_log_ratio` at some hour | rejected |
-//! | `daily_deviation` | the day total deviates from the typical total by > `daily_deviation_max_share` | flagged |
+//! | `daily_deviation` | the day total deviates from the typical total, at the seasonal level of the days within `daily_deviation_window_days`, by > `daily_deviation_max_share` and 3 Poisson deviations | flagged |
 //! | `swapped_directions` | fwd fits the rev profile and rev the fwd one much better than as recorded | rejected (fwd and rev) |
 //! | `directional_imbalance` | the fwd share of the two-way total moved from the typical share (or the split is beyond `directional_max_share`) | flagged |
 //! | `class_mismatch` | classified quarters differ from vehicle quarters, class sums differ from vehicles, too few light vehicles, or a heavy share far from the station's typical one | flagged |
@@ -351,6 +351,7 @@ pub(crate) fn check_station(
         swapped_rules(station, &complete, &profile_of, p, &mut rejected, &mut out);
     }
     // Pass 2: single-direction rules.
+    let mut levels: Vec<(Direction, NaiveDate, f64)> = Vec::new();
     for ((d, date), s) in &complete {
         if rejected.contains(&(*d, *date)) {
             continue;
@@ -390,9 +391,39 @@ pub(crate) fn check_station(
             push(rule, QcAction::Rejected, t);
         }
         if !rejected.contains(&(*d, *date)) {
-            if let Some(t) = prof.and_then(|pr| rules::daily_deviation(s, pr, p)) {
-                push(QcRule::DailyDeviation, QcAction::Flagged, t);
+            if let Some(pr) = prof {
+                let e: f64 = pr.expected(s).iter().sum();
+                if e > 0.0 {
+                    levels.push((*d, *date, s.total() / e));
+                }
             }
+        }
+    }
+    // Daily totals against the typical day, at the seasonal level of the neighbouring days.
+    for &(d, date, _) in &levels {
+        let window = p.daily_deviation_window_days as i64;
+        let near: Vec<f64> = levels
+            .iter()
+            .filter(|(dd, other, _)| {
+                *dd == d && *other != date && (*other - date).num_days().abs() <= window
+            })
+            .map(|x| x.2)
+            .collect();
+        let season = if window > 0 && near.len() >= p.profile_min_days {
+            rules::median_of(near)
+        } else {
+            1.0
+        };
+        let s = &complete[&(d, date)];
+        if let Some(t) = profile_of(d, s).and_then(|pr| rules::daily_deviation(s, pr, season, p)) {
+            out.push(QcFinding {
+                station,
+                direction: d,
+                date,
+                rule: QcRule::DailyDeviation,
+                action: QcAction::Flagged,
+                detail: t,
+            });
         }
     }
     // Both directions of a day.

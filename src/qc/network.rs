@@ -245,3 +245,118 @@ fn length_checks(net: &Network, p: &QcParams, skip: &[bool], out: &mut Vec<Netwo
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::{Area, FunctionalClass, Node, Segment};
+
+    fn node(id: &str, lon: f64, lat: f64) -> Node {
+        Node {
+            id: NodeId::from(id),
+            lon,
+            lat,
+        }
+    }
+
+    fn seg(id: &str, from: usize, to: usize, length_km: f64, oneway: bool) -> Segment {
+        Segment {
+            id: SegmentId::from(id),
+            from,
+            to,
+            length_km,
+            functional_class: FunctionalClass::new(4).unwrap(),
+            area: Area::Rural,
+            lanes: 2,
+            oneway,
+            route: None,
+            speed_limit_kph: None,
+        }
+    }
+
+    /// a - b -> c (one-way into c, nothing leaves c), and a separate d - e whose length is
+    /// shorter than its chord; f is used by no segment.
+    fn tiny() -> Network {
+        // 0.01 degrees of longitude at the equator is 1.112 km.
+        let nodes = vec![
+            node("a", 0.0, 0.0),
+            node("b", 0.01, 0.0),
+            node("c", 0.02, 0.0),
+            node("d", 5.0, 5.0),
+            node("e", 5.01, 5.0),
+            node("f", 9.0, 9.0),
+        ];
+        let segments = vec![
+            seg("ab", 0, 1, 1.2, false),
+            seg("bc", 1, 2, 1.2, true),
+            seg("de", 3, 4, 0.5, false),
+        ];
+        let node_index = nodes
+            .iter()
+            .enumerate()
+            .map(|(i, n)| (n.id.clone(), i))
+            .collect();
+        let segment_index = segments
+            .iter()
+            .enumerate()
+            .map(|(i, s)| (s.id.clone(), i))
+            .collect();
+        Network {
+            nodes,
+            segments,
+            node_index,
+            segment_index,
+        }
+    }
+
+    fn checks(f: &[NetworkFinding]) -> Vec<&'static str> {
+        f.iter().map(|x| x.check).collect()
+    }
+
+    #[test]
+    fn tiny_network_findings() {
+        let f = check_network(&tiny(), &QcParams::default());
+        assert_eq!(
+            checks(&f),
+            [
+                "disconnected_component",
+                "oneway_dead_end",
+                "shorter_than_chord"
+            ],
+            "{f:?}"
+        );
+        assert_eq!(f[0].node_id, Some(NodeId::from("d")));
+        assert!(f[0].detail.contains("2 nodes"), "{}", f[0].detail);
+        assert!(f[0].detail.contains("largest component (3 nodes)"));
+        assert_eq!(f[1].node_id, Some(NodeId::from("c")));
+        assert_eq!(f[2].segment_id, Some(SegmentId::from("de")));
+    }
+
+    #[test]
+    fn two_way_cul_de_sac_and_sound_lengths_are_not_findings() {
+        let mut net = tiny();
+        net.segments[1].oneway = false;
+        net.segments[2].length_km = 1.15;
+        let f = check_network(&net, &QcParams::default());
+        assert_eq!(checks(&f), ["disconnected_component"], "{f:?}");
+    }
+
+    #[test]
+    fn length_and_reference_faults() {
+        let mut net = tiny();
+        net.nodes[4] = node("e", 5.0, 5.0); // coincides with d
+        net.segments[2].length_km = 0.001;
+        net.segments[0].length_km = 150.0;
+        let f = check_network(&net, &QcParams::default());
+        let c = checks(&f);
+        assert!(c.contains(&"zero_length"), "{f:?}");
+        assert!(c.contains(&"coincident_nodes"));
+        assert!(c.contains(&"too_long"));
+        assert!(c.contains(&"longer_than_chord"));
+        net.segments[1].to = 99;
+        let f = check_network(&net, &QcParams::default());
+        assert_eq!(f[0].check, "dangling_reference");
+        assert_eq!(f[0].segment_id, Some(SegmentId::from("bc")));
+        assert!(!checks(&f).contains(&"disconnected_component"));
+    }
+}

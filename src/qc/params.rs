@@ -75,6 +75,11 @@ pub struct QcParams {
     /// is flagged (`daily_deviation`). Default 0.20 (common practice starting point; TMG
     /// data-quality checks compare against the station's history).
     pub daily_deviation_max_share: f64,
+    /// The typical total is scaled to the seasonal level: the median observed-to-typical ratio
+    /// of the station's days within this many days either side (needs `profile_min_days` of
+    /// them; 0 compares against the whole-period profile). Days. Default 14 (common practice:
+    /// compare with the same weekday in the surrounding weeks).
+    pub daily_deviation_window_days: u32,
 
     /// Largest change of the fwd share of the two-way daily total against the station's
     /// typical fwd share, absolute share. Beyond it the day is flagged. Default 0.10.
@@ -129,10 +134,11 @@ impl Default for QcParams {
             spike_min_z: 6.0,
             spike_min_excess: 8.0,
             level_shift_min_log_ratio: 0.25,
-            level_shift_min_z: 5.0,
+            level_shift_min_z: 4.0,
             level_shift_min_side_volume: 50.0,
             shape_noise_share: 0.03,
             daily_deviation_max_share: 0.20,
+            daily_deviation_window_days: 14,
             directional_max_share_change: 0.10,
             directional_max_share: 0.70,
             swap_min_misfit_ratio: 3.0,

@@ -50,6 +50,16 @@ pub(crate) fn poisson_equal_chance(lambda: f64) -> f64 {
         .sum()
 }
 
+/// Poisson chance of exactly `value` when about `expected` is expected, taking the most
+/// likely mean within +-15 % of `expected` (allowance for the day's shape noise and the
+/// profile's own error).
+pub(crate) fn value_chance(value: f64, expected: f64) -> f64 {
+    let lo = expected * 0.85;
+    let hi = expected * 1.15;
+    let lambda = value.clamp(lo, hi).max(1e-9);
+    (value * lambda.ln() - lambda - ln_gamma(value + 1.0)).exp()
+}
+
 /// Flat run: the same non-zero value in consecutive hours, improbable under counting noise.
 pub(crate) fn flat_run(
     s: &DaySeries,
@@ -69,7 +79,12 @@ pub(crate) fn flat_run(
             let prob: f64 = (k + 1..j)
                 .map(|i| {
                     let typ = expected.map_or(0.0, |(e, sc)| e[i] * sc);
-                    poisson_equal_chance(v[k].max(typ))
+                    let equal = poisson_equal_chance(v[k].max(typ));
+                    if typ > 0.0 {
+                        equal.min(value_chance(v[k], typ))
+                    } else {
+                        equal
+                    }
                 })
                 .product();
             if prob < p.flat_run_max_probability && best.is_none_or(|b| prob < b.0) {
@@ -243,24 +258,39 @@ pub(crate) fn level_shift(s: &DaySeries, profile: &Profile, p: &QcParams) -> Opt
     })
 }
 
-/// Daily deviation: the day total against the typical total of its day type.
-pub(crate) fn daily_deviation(s: &DaySeries, profile: &Profile, p: &QcParams) -> Option<String> {
-    let e: f64 = profile.expected(s).iter().sum();
+/// Daily deviation: the day total against the typical total of its day type, scaled by the
+/// seasonal level `season` (the median observed-to-typical ratio of the neighbouring days).
+/// The deviation must also exceed three Poisson standard deviations, so that small totals
+/// do not fire on counting noise alone.
+pub(crate) fn daily_deviation(
+    s: &DaySeries,
+    profile: &Profile,
+    season: f64,
+    p: &QcParams,
+) -> Option<String> {
+    let e: f64 = profile.expected(s).iter().sum::<f64>() * season;
     if e <= 0.0 {
         return None;
     }
     let t = s.total();
     let ratio = t / e;
-    ((ratio - 1.0).abs() > p.daily_deviation_max_share).then(|| {
-        format!(
-            "daily total {t:.0} {} is {:.0} % of the typical {e:.0} {} ({}, {} days)",
-            s.measure.unit(),
-            ratio * 100.0,
-            s.measure.unit(),
-            profile.label,
-            profile.days
-        )
-    })
+    ((ratio - 1.0).abs() > p.daily_deviation_max_share && (t - e).abs() >= 3.0 * e.sqrt()).then(
+        || {
+            format!(
+                "daily total {t:.0} {} is {:.0} % of the typical {e:.0} {} ({}, {} days{})",
+                s.measure.unit(),
+                ratio * 100.0,
+                s.measure.unit(),
+                profile.label,
+                profile.days,
+                if (season - 1.0).abs() > 0.005 {
+                    format!(", seasonal level {:.0} %", season * 100.0)
+                } else {
+                    String::new()
+                }
+            )
+        },
+    )
 }
 
 /// Chi-square misfit of a day's hours against a profile scaled to the day's total.

@@ -456,34 +456,54 @@ enum Fault {
 
 /// Fraction of the `faulty` direction-days (fwd, or the pair for swaps) that got any finding.
 fn caught_share(fault: Fault, seed: u64) -> (f64, usize) {
+    caught_share_at(fault, seed, 8000.0, false)
+}
+
+/// As [`caught_share`] on a road of `daily` veh/day/direction; `hard` puts faults anywhere in
+/// the day and makes stuck runs 4-6 hours and dead runs 2-6 hours.
+fn caught_share_at(fault: Fault, seed: u64, daily: f64, hard: bool) -> (f64, usize) {
     let n_days = 250;
     let mut rng = ChaCha8Rng::seed_from_u64(seed ^ 0xfa17);
     // Every 5th day is faulty: 50 days.
     let faulty: Vec<usize> = (0..n_days).filter(|i| i % 5 == 2).collect();
-    let days = station(n_days, seed, 8000.0, |i, date, v| {
+    let days = station(n_days, seed, daily, |i, date, v| {
         if i % 5 != 2 {
             return None;
         }
         let wd = date.weekday().num_days_from_monday();
         match fault {
             Fault::Stuck => {
-                let start = rng.gen_range(6..=14);
-                let len = rng.gen_range(5..=10);
+                let (start, len) = if hard {
+                    (rng.gen_range(0..=18), rng.gen_range(4..=6))
+                } else {
+                    (rng.gen_range(6..=14), rng.gen_range(5..=10))
+                };
                 let x = v[0][start].max(1);
                 v[0][start..start + len].iter_mut().for_each(|y| *y = x);
             }
             Fault::Dead => {
-                let start = rng.gen_range(7..=14);
-                let len = rng.gen_range(3..=8);
+                let (start, len) = if hard {
+                    (rng.gen_range(6..=18), rng.gen_range(2..=6))
+                } else {
+                    (rng.gen_range(7..=14), rng.gen_range(3..=8))
+                };
                 v[0][start..start + len].iter_mut().for_each(|y| *y = 0);
             }
             Fault::Spike => {
-                let h = rng.gen_range(6..=20);
+                let h = if hard {
+                    rng.gen_range(0..=23)
+                } else {
+                    rng.gen_range(6..=20)
+                };
                 let k = rng.gen_range(5.0..10.0);
                 v[0][h] = (v[0][h] as f64 * k).round() as u32;
             }
             Fault::Shift => {
-                let h = rng.gen_range(4..=20);
+                let h = if hard {
+                    rng.gen_range(1..=23)
+                } else {
+                    rng.gen_range(4..=20)
+                };
                 let k = if rng.gen_bool(0.5) { 0.5 } else { 1.6 };
                 v[0][h..]
                     .iter_mut()
@@ -574,4 +594,19 @@ fn injected_faults_are_caught() {
             share * 100.0
         );
     }
+}
+
+#[test]
+fn injected_faults_are_caught_on_a_quieter_road() {
+    // 2000 veh/day/direction, faults anywhere in the day and shorter stuck runs.
+    for fault in [Fault::Stuck, Fault::Dead, Fault::Spike, Fault::Swap] {
+        let (share, n) = caught_share_at(fault, 41, 2000.0, true);
+        assert!(
+            share >= 0.95,
+            "{fault:?}: caught {:.0} % of {n}",
+            share * 100.0
+        );
+    }
+    let (share, n) = caught_share_at(Fault::Shift, 41, 2000.0, false);
+    assert!(share >= 0.95, "shift: caught {:.0} % of {n}", share * 100.0);
 }
