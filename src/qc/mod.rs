@@ -30,6 +30,10 @@
 //! | `directional_imbalance` | the fwd share of the two-way total moved from the typical share (or the split is beyond `directional_max_share`) | flagged |
 //! | `class_mismatch` | classified quarters differ from vehicle quarters, class sums differ from vehicles, too few light vehicles, or a heavy share far from the station's typical one | flagged |
 //!
+//! Zero runs, spikes and level shifts found against the day's own profile are only flagged
+//! when the day passes all three against the profile of another day type (a working-day
+//! holiday with a Sunday shape, or the reverse).
+//!
 //! The expected hourly volume on a day is the profile times the day's own robust level (the
 //! volume-weighted median of observed / typical), so that the normal day-to-day variation and
 //! holidays (a whole-day drop with a normal shape) do not make hours look faulty; such days at
@@ -375,20 +379,50 @@ pub(crate) fn check_station(
         if let Some(t) = rules::flat_run(s, scaled, p) {
             structural.push((QcRule::FlatRun, t));
         }
-        if let Some(t) = rules::zero_run(s, prof, p) {
-            structural.push((QcRule::ZeroRun, t));
-        }
-        if let Some(t) = rules::spike(s, prof, p) {
-            structural.push((QcRule::Spike, t));
-        }
-        if let Some(t) = prof.and_then(|pr| rules::level_shift(s, pr, p)) {
-            structural.push((QcRule::LevelShift, t));
+        // The rules that test the day against a profile (or, without one, its neighbours).
+        let against = |pr: Option<&profile::Profile>| {
+            let mut v = Vec::new();
+            if let Some(t) = rules::zero_run(s, pr, p) {
+                v.push((QcRule::ZeroRun, t));
+            }
+            if let Some(t) = rules::spike(s, pr, p) {
+                v.push((QcRule::Spike, t));
+            }
+            if let Some(t) = pr.and_then(|pr| rules::level_shift(s, pr, p)) {
+                v.push((QcRule::LevelShift, t));
+            }
+            v
+        };
+        let own = against(prof);
+        let mut holiday_shape = Vec::new();
+        if !own.is_empty() && prof.is_some() {
+            // A holiday has the shape of another day type (a Sunday-like Thursday): when the
+            // day passes against such a profile, its findings are flagged, not rejected.
+            let other = profiles
+                .get(&(*d, s.measure))
+                .map(|ps| ps.other_day_types(*date))
+                .unwrap_or_default()
+                .into_iter()
+                .find(|o| against(Some(o)).is_empty());
+            if let Some(o) = other {
+                holiday_shape = own
+                    .iter()
+                    .map(|(r, t)| (*r, format!("{t}; fits the {} profile (holiday?)", o.label)))
+                    .collect();
+            } else {
+                structural.extend(own);
+            }
+        } else {
+            structural.extend(own);
         }
         if !structural.is_empty() {
             rejected.insert((*d, *date));
         }
         for (rule, t) in structural {
             push(rule, QcAction::Rejected, t);
+        }
+        for (rule, t) in holiday_shape {
+            push(rule, QcAction::Flagged, t);
         }
         if !rejected.contains(&(*d, *date)) {
             if let Some(pr) = prof {

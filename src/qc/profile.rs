@@ -231,6 +231,16 @@ impl ProfileSet {
         set
     }
 
+    /// Profiles of the other day types (Mon-Fri, Saturday, Sunday groups) than `date`'s own,
+    /// for telling a holiday (a working day with a weekend shape) from a fault.
+    pub(crate) fn other_day_types(&self, date: NaiveDate) -> Vec<&Profile> {
+        let own = group_of(date.weekday().num_days_from_monday() as usize);
+        (0..3)
+            .filter(|&g| g != own)
+            .filter_map(|g| self.group[g].as_ref())
+            .collect()
+    }
+
     pub(crate) fn for_date(&self, date: NaiveDate) -> Option<&Profile> {
         let w = date.weekday().num_days_from_monday() as usize;
         self.weekday[w]

@@ -301,6 +301,20 @@ fn holiday_at_sixty_percent_with_normal_shape_is_at_most_flagged() {
 }
 
 #[test]
+fn holiday_with_a_sunday_shape_on_a_working_day_is_not_rejected() {
+    let (f, d) = run_with(|i, _, v| {
+        if i == FAULT_DAY {
+            let mut s = Synth::new(99, 8000.0 * 0.8);
+            let sunday = date0() + chrono::Duration::days(6);
+            *v = s.day_values(sunday);
+        }
+        None
+    });
+    let on = findings_on(&f, d);
+    assert!(on.iter().all(|x| x.action == QcAction::Flagged), "{on:?}");
+}
+
+#[test]
 fn clock_change_days_of_23_and_25_hours_are_complete() {
     let mut s = Synth::new(3, 8000.0);
     let mut days = BTreeMap::new();
@@ -454,14 +468,14 @@ enum Fault {
     Swap,
 }
 
-/// Fraction of the `faulty` direction-days (fwd, or the pair for swaps) that got any finding.
-fn caught_share(fault: Fault, seed: u64) -> (f64, usize) {
+/// Shares of the faulty fwd direction-days that got any finding and that were rejected.
+fn caught_share(fault: Fault, seed: u64) -> (f64, f64, usize) {
     caught_share_at(fault, seed, 8000.0, false)
 }
 
 /// As [`caught_share`] on a road of `daily` veh/day/direction; `hard` puts faults anywhere in
 /// the day and makes stuck runs 4-6 hours and dead runs 2-6 hours.
-fn caught_share_at(fault: Fault, seed: u64, daily: f64, hard: bool) -> (f64, usize) {
+fn caught_share_at(fault: Fault, seed: u64, daily: f64, hard: bool) -> (f64, f64, usize) {
     let n_days = 250;
     let mut rng = ChaCha8Rng::seed_from_u64(seed ^ 0xfa17);
     // Every 5th day is faulty: 50 days.
@@ -527,6 +541,7 @@ fn caught_share_at(fault: Fault, seed: u64, daily: f64, hard: bool) -> (f64, usi
     });
     let (f, _) = check_station(0, &days, false, &QcParams::default());
     let mut caught = 0;
+    let mut rejected = 0;
     let mut total = 0;
     for i in faulty {
         let date = date0() + chrono::Duration::days(i as i64);
@@ -534,13 +549,19 @@ fn caught_share_at(fault: Fault, seed: u64, daily: f64, hard: bool) -> (f64, usi
             continue;
         }
         total += 1;
-        if f.iter()
-            .any(|x| x.date == date && x.direction == Direction::Fwd)
-        {
-            caught += 1;
-        }
+        let on: Vec<&QcFinding> = f
+            .iter()
+            .filter(|x| x.date == date && x.direction == Direction::Fwd)
+            .collect();
+        caught += usize::from(!on.is_empty());
+        rejected += usize::from(on.iter().any(|x| x.action == QcAction::Rejected));
     }
-    (caught as f64 / total as f64, total)
+    eprintln!("{fault:?} at {daily} veh/day: {caught} caught, {rejected} rejected of {total}");
+    (
+        caught as f64 / total as f64,
+        rejected as f64 / total as f64,
+        total,
+    )
 }
 
 #[test]
@@ -585,13 +606,18 @@ fn injected_faults_are_caught() {
         Fault::Partial,
         Fault::Swap,
     ] {
-        let (share, n) = caught_share(fault, 31);
-        eprintln!("{fault:?}: {share} of {n}");
+        let (share, rejected, n) = caught_share(fault, 31);
         assert!(n >= 30);
         assert!(
             share >= 0.95,
             "{fault:?}: caught {:.0} % of {n}",
             share * 100.0
+        );
+        // Every injected fault is structural, so it must be rejected, not only flagged.
+        assert!(
+            rejected >= 0.95,
+            "{fault:?}: rejected {:.0} % of {n}",
+            rejected * 100.0
         );
     }
 }
@@ -600,13 +626,13 @@ fn injected_faults_are_caught() {
 fn injected_faults_are_caught_on_a_quieter_road() {
     // 2000 veh/day/direction, faults anywhere in the day and shorter stuck runs.
     for fault in [Fault::Stuck, Fault::Dead, Fault::Spike, Fault::Swap] {
-        let (share, n) = caught_share_at(fault, 41, 2000.0, true);
+        let (share, _, n) = caught_share_at(fault, 41, 2000.0, true);
         assert!(
             share >= 0.95,
             "{fault:?}: caught {:.0} % of {n}",
             share * 100.0
         );
     }
-    let (share, n) = caught_share_at(Fault::Shift, 41, 2000.0, false);
+    let (share, _, n) = caught_share_at(Fault::Shift, 41, 2000.0, false);
     assert!(share >= 0.95, "shift: caught {:.0} % of {n}", share * 100.0);
 }
