@@ -11,7 +11,10 @@ use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, Normal, Poisson};
 
 use super::*;
+use crate::input::counts::CountStore;
+use crate::input::stations::StationList;
 use crate::model::counts::hour_mask;
+use crate::model::Network;
 use crate::model::{DayCounts, DirectionDay, CLASS_COUNT};
 
 const OFFSET: i32 = -300;
@@ -635,4 +638,164 @@ fn injected_faults_are_caught_on_a_quieter_road() {
     }
     let (share, _, n) = caught_share_at(Fault::Shift, 41, 2000.0, false);
     assert!(share >= 0.95, "shift: caught {:.0} % of {n}", share * 100.0);
+}
+
+// ---------------------------------------------------------------- the whole stage
+
+fn tiny_study() -> (CountStore, StationList, Network) {
+    use crate::model::{Area, FunctionalClass, Node, NodeId, Segment, SegmentId, Station};
+    use crate::model::{StationId, StationKind};
+    let nodes = vec![
+        Node {
+            id: NodeId::from("a"),
+            lon: 0.0,
+            lat: 0.0,
+        },
+        Node {
+            id: NodeId::from("b"),
+            lon: 0.01,
+            lat: 0.0,
+        },
+    ];
+    let segments = vec![Segment {
+        id: SegmentId::from("ab"),
+        from: 0,
+        to: 1,
+        length_km: 1.2,
+        functional_class: FunctionalClass::new(3).unwrap(),
+        area: Area::Urban,
+        lanes: 2,
+        oneway: false,
+        route: None,
+        speed_limit_kph: None,
+    }];
+    let net = Network {
+        node_index: nodes
+            .iter()
+            .enumerate()
+            .map(|(i, n)| (n.id.clone(), i))
+            .collect(),
+        segment_index: [(SegmentId::from("ab"), 0)].into_iter().collect(),
+        nodes,
+        segments,
+    };
+    let listed = |id: &str, kind| Station {
+        id: StationId::from(id),
+        segment_id: SegmentId::from("ab"),
+        segment: 0,
+        kind,
+    };
+    let list = vec![
+        listed("perm", StationKind::Continuous),
+        listed("both", StationKind::Continuous),
+        listed("axle", StationKind::Short),
+    ];
+    let stations = StationList {
+        index: list
+            .iter()
+            .enumerate()
+            .map(|(i, s)| (s.id.clone(), i))
+            .collect(),
+        stations: list,
+        rejected: Default::default(),
+    };
+    // Station 0: fwd and rev, a dead sensor on day 37 in fwd.
+    let perm = station(70, 7, 8000.0, |i, _, v| {
+        if i == FAULT_DAY {
+            v[0][9..13].iter_mut().for_each(|y| *y = 0);
+        }
+        None
+    });
+    // Station 1: `both` only, a spike on day 37.
+    let mut s = Synth::new(8, 8000.0);
+    let mut both = BTreeMap::new();
+    for i in 0..70 {
+        let date = date0() + chrono::Duration::days(i);
+        let v = s.day_values(date);
+        let mut sum: Vec<u32> = v[0].iter().zip(&v[1]).map(|(a, b)| a + b).collect();
+        if i == FAULT_DAY as i64 {
+            sum[15] *= 7;
+        }
+        let mut day = day_counts(date, &[(Direction::Both, full(&sum))]);
+        day.station = 1;
+        both.insert(date, day);
+    }
+    // Station 2: a 2-day axle count, the first day starting at 10:00 (incomplete).
+    let mut axle = BTreeMap::new();
+    for i in 0..2 {
+        let date = date0() + chrono::Duration::days(100 + i);
+        let v = s.day_values(date);
+        let vals: Vec<Option<u32>> = v[0]
+            .iter()
+            .enumerate()
+            .map(|(h, &x)| (i == 1 || h >= 10).then_some(2 * x + 3))
+            .collect();
+        let mut day = day_counts(date, &[(Direction::Fwd, vals)]);
+        day.station = 2;
+        let dd = day.dirs[0].as_mut().unwrap();
+        dd.axles = dd.vehicles;
+        dd.axle_quarters = dd.vehicle_quarters;
+        dd.vehicles = [0; crate::model::MAX_DAY_HOURS];
+        dd.vehicle_quarters = 0;
+        axle.insert(date, day);
+    }
+    let store = CountStore {
+        days: vec![perm, both, axle],
+        ..Default::default()
+    };
+    (store, stations, net)
+}
+
+#[test]
+fn run_rejects_faulty_direction_days_and_counts_outcomes() {
+    let (store, stations, net) = tiny_study();
+    let out = run(&store, &stations, &net, &QcParams::default());
+    let fault = date0() + chrono::Duration::days(FAULT_DAY as i64);
+    assert!(out.is_rejected(0, fault, Direction::Fwd));
+    assert!(!out.is_rejected(0, fault, Direction::Rev));
+    assert!(out.is_rejected(1, fault, Direction::Both));
+    let first_axle_day = date0() + chrono::Duration::days(100);
+    assert!(out.is_rejected(2, first_axle_day, Direction::Fwd));
+    assert!(!out.is_rejected(
+        2,
+        first_axle_day + chrono::Duration::days(1),
+        Direction::Fwd
+    ));
+    let axle_finding = out
+        .findings
+        .iter()
+        .find(|f| f.station == 2)
+        .expect("the partial axle day");
+    assert_eq!(axle_finding.rule, QcRule::Incomplete);
+    assert!(
+        axle_finding.detail.contains("axle"),
+        "{}",
+        axle_finding.detail
+    );
+    assert!(out
+        .findings
+        .iter()
+        .any(|f| f.station == 1 && f.rule == QcRule::Spike && f.date == fault));
+    // Sorted by station, date, direction, rule.
+    let keys: Vec<_> = out
+        .findings
+        .iter()
+        .map(|f| (f.station, f.date, f.direction, f.rule))
+        .collect();
+    let mut sorted = keys.clone();
+    sorted.sort();
+    assert_eq!(keys, sorted);
+    let s = &out.summary;
+    assert_eq!(s.direction_days, 140 + 70 + 2);
+    assert_eq!(s.rejected, out.rejected.len());
+    assert_eq!(s.clean + s.flagged + s.rejected, s.direction_days);
+    let zero = s
+        .by_rule
+        .iter()
+        .find(|(r, _)| *r == QcRule::ZeroRun)
+        .unwrap()
+        .1;
+    assert_eq!(zero.rejected, 1);
+    assert!(out.network.is_empty(), "{:?}", out.network);
+    assert!(s.rejected <= 4, "{:?}", out.findings);
 }
