@@ -31,8 +31,9 @@
 //! | `class_mismatch` | classified quarters differ from vehicle quarters, class sums differ from vehicles, too few light vehicles, or a heavy share far from the station's typical one | flagged |
 //!
 //! Zero runs, spikes and level shifts found against the day's own profile are only flagged
-//! when the day passes all three against the profile of another day type (a working-day
-//! holiday with a Sunday shape, or the reverse).
+//! when the day passes all three against the profile of another day type and fits that
+//! profile's shape at least twice as well (chi-square) as its own: a working-day holiday with
+//! a Sunday shape, or the reverse.
 //!
 //! The expected hourly volume on a day is the profile times the day's own robust level (the
 //! volume-weighted median of observed / typical), so that the normal day-to-day variation and
@@ -403,7 +404,11 @@ pub(crate) fn check_station(
                 .map(|ps| ps.other_day_types(*date))
                 .unwrap_or_default()
                 .into_iter()
-                .find(|o| against(Some(o)).is_empty());
+                .find(|o| {
+                    // It must fit that profile clearly better in shape, too.
+                    let own_misfit = prof.map_or(0.0, |pr| rules::misfit(s, pr, p));
+                    against(Some(o)).is_empty() && 2.0 * rules::misfit(s, o, p) < own_misfit
+                });
             if let Some(o) = other {
                 holiday_shape = own
                     .iter()

@@ -558,6 +558,9 @@ fn caught_share_at(fault: Fault, seed: u64, daily: f64, hard: bool) -> (f64, f64
             .collect();
         caught += usize::from(!on.is_empty());
         rejected += usize::from(on.iter().any(|x| x.action == QcAction::Rejected));
+        if std::env::var("QC_DEBUG").is_ok() && !on.iter().any(|x| x.action == QcAction::Rejected) {
+            eprintln!("MISSED {fault:?} {date} {on:?}");
+        }
     }
     eprintln!("{fault:?} at {daily} veh/day: {caught} caught, {rejected} rejected of {total}");
     (
