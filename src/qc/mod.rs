@@ -48,6 +48,14 @@
 //! direction only cannot give a two-way figure anyway). Daily deviation, directional and
 //! class findings are only looked for on days no structural rule rejected.
 //!
+//! Days are local calendar days, as the data contract defines them: a short count that starts
+//! at 10:00 on Tuesday and ends at 10:00 on Thursday gives one complete day (Wednesday); its
+//! partial first and last days are rejected as `incomplete`.
+//!
+//! A whole-day drop or rise of one direction only (a fault from the first hour on) has no
+//! step within the day; it is flagged by `daily_deviation` and `directional_imbalance`, not
+//! rejected, since the same signs also mark real one-sided events.
+//!
 //! # Units
 //! Volumes are vehicles (or axle hits) per clock hour; daily totals vehicles per day; shares
 //! are fractions 0..1; z-scores are in standard deviations.
@@ -119,6 +127,10 @@ impl QcRule {
     ];
 
     /// The snake_case name written to qc_log.csv.
+    ///
+    /// ```
+    /// assert_eq!(roadtally::qc::QcRule::FlatRun.as_str(), "flat_run");
+    /// ```
     pub fn as_str(self) -> &'static str {
         match self {
             QcRule::Incomplete => "incomplete",
@@ -222,6 +234,12 @@ impl QcOutput {
 }
 
 /// Runs every count rule over the store and the network checks over the network.
+///
+/// ```
+/// use roadtally::qc::{run, QcParams};
+/// let out = run(&Default::default(), &Default::default(), &Default::default(), &QcParams::default());
+/// assert!(out.findings.is_empty() && out.summary.direction_days == 0);
+/// ```
 pub fn run(
     store: &CountStore,
     stations: &StationList,
