@@ -11,10 +11,11 @@
 //!    measure x day type x clock hour: each day is scaled to the median daily total and the
 //!    median and MAD (x 1.4826) of every clock hour are taken. The day type is the weekday when
 //!    it has [`QcParams::profile_min_days`] days, else the weekday group (Mon-Fri, Sat, Sun),
-//!    else working days or weekend days,
-//!    else all days pooled when there are [`QcParams::profile_min_days_pooled`]; short counts
-//!    with fewer days only get the self-contained rules (flat run, zero run and spike against
-//!    neighbouring hours). Medians make the profile robust to the faulty days it contains.
+//!    else all working days or all weekend days when there are
+//!    [`QcParams::profile_min_days_pooled`] (working and weekend days are never pooled: their
+//!    shapes differ). Short counts with fewer days of the day's kind only get the
+//!    self-contained rules (flat run, zero run and spike against neighbouring hours). Medians
+//!    make the profile robust to the faulty days it contains.
 //!
 //! Then each complete direction-day is tested against the profile of its day type:
 //!

@@ -24,9 +24,9 @@ pub struct QcParams {
     /// that weekday; with fewer, the weekday group (Mon-Fri, Sat, Sun) and then all days of the
     /// station are pooled. Days. Default 5 (common practice: a robust median needs a handful).
     pub profile_min_days: usize,
-    /// Fewest complete days of a station and direction for any profile at all (pooled over every
-    /// weekday). With fewer, only the self-contained rules run. Days. Default 3 (the median of 3
-    /// still ignores one faulty day).
+    /// Fewest complete days of a station and direction for any profile at all (all working days
+    /// or all weekend days pooled). With fewer, only the self-contained rules run. Days.
+    /// Default 3 (the median of 3 still ignores one faulty day).
     pub profile_min_days_pooled: usize,
 
     /// Shortest flat run, in hours, that can be a fault at all. Default 3 (common practice).

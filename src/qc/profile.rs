@@ -181,13 +181,12 @@ const CLASS_NAMES: [&str; 2] = ["working day", "weekend day"];
 const GROUP_NAMES: [&str; 3] = ["weekday (Mon-Fri)", "Saturday", "Sunday"];
 
 /// Profiles of one station, direction and measure, with the fallback order
-/// weekday -> weekday group -> working day / weekend day -> all days.
+/// weekday -> weekday group -> working days / weekend days (the last with fewer days).
 #[derive(Debug, Clone, Default)]
 pub(crate) struct ProfileSet {
     weekday: [Option<Profile>; 7],
     group: [Option<Profile>; 3],
     class: [Option<Profile>; 2],
-    pooled: Option<Profile>,
 }
 
 impl ProfileSet {
@@ -215,18 +214,16 @@ impl ProfileSet {
                 set.group[g] = Some(build(&sel, name));
             }
         }
+        // Working days and weekend days are never pooled together: their shapes differ.
         for (c, name) in CLASS_NAMES.iter().enumerate() {
             let sel: Vec<&DaySeries> = full
                 .iter()
                 .copied()
                 .filter(|d| usize::from(wd(d) >= 5) == c)
                 .collect();
-            if sel.len() >= min_days.max(1) {
+            if sel.len() >= min_pooled.max(1) {
                 set.class[c] = Some(build(&sel, name));
             }
-        }
-        if full.len() >= min_pooled.max(1) {
-            set.pooled = Some(build(&full, "all days"));
         }
         set
     }
@@ -247,6 +244,5 @@ impl ProfileSet {
             .as_ref()
             .or(self.group[group_of(w)].as_ref())
             .or(self.class[usize::from(w >= 5)].as_ref())
-            .or(self.pooled.as_ref())
     }
 }

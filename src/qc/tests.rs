@@ -802,3 +802,67 @@ fn run_rejects_faulty_direction_days_and_counts_outcomes() {
     assert!(out.network.is_empty(), "{:?}", out.network);
     assert!(s.rejected <= 4, "{:?}", out.findings);
 }
+
+#[test]
+fn single_day_short_counts_are_rarely_rejected() {
+    // No profile: only the self-contained rules run, against neighbouring hours.
+    for daily in [150.0, 400.0, 2000.0, 8000.0] {
+        let mut s = Synth::new(77, daily);
+        let mut rejected = 0;
+        for i in 0..300 {
+            let date = date0() + chrono::Duration::days(i);
+            let v = s.day_values(date);
+            let mut days = BTreeMap::new();
+            days.insert(
+                date,
+                day_counts(
+                    date,
+                    &[(Direction::Fwd, full(&v[0])), (Direction::Rev, full(&v[1]))],
+                ),
+            );
+            let (f, _) = check_station(0, &days, false, &QcParams::default());
+            let r: HashSet<Direction> = f
+                .iter()
+                .filter(|x| x.action == QcAction::Rejected)
+                .map(|x| x.direction)
+                .collect();
+            rejected += r.len();
+        }
+        assert!(rejected < 6, "{daily} veh/day: {rejected} of 600 rejected");
+    }
+}
+
+#[test]
+fn three_day_short_counts_are_rarely_rejected() {
+    // A pooled profile of three days, which may mix working days and weekend days.
+    let mut rejected = 0;
+    let mut total = 0;
+    for daily in [400.0, 2000.0, 8000.0] {
+        let mut s = Synth::new(78, daily);
+        for i in 0..100 {
+            let mut days = BTreeMap::new();
+            for k in 0..3 {
+                let date = date0() + chrono::Duration::days(i + k);
+                let v = s.day_values(date);
+                let d = day_counts(
+                    date,
+                    &[(Direction::Fwd, full(&v[0])), (Direction::Rev, full(&v[1]))],
+                );
+                days.insert(date, d);
+            }
+            let (f, n) = check_station(0, &days, false, &QcParams::default());
+            let r: HashSet<(NaiveDate, Direction)> = f
+                .iter()
+                .filter(|x| x.action == QcAction::Rejected)
+                .map(|x| (x.date, x.direction))
+                .collect();
+            rejected += r.len();
+            total += n;
+        }
+    }
+    eprintln!("three-day short counts: {rejected} of {total} rejected");
+    assert!(
+        (rejected as f64) < 0.01 * total as f64,
+        "{rejected} of {total} rejected"
+    );
+}
