@@ -866,3 +866,65 @@ fn three_day_short_counts_are_rarely_rejected() {
         "{rejected} of {total} rejected"
     );
 }
+
+#[test]
+fn faults_on_three_day_short_counts_are_caught() {
+    // Tuesday to Thursday counts (TMG's preferred short-count days), the fault on Wednesday.
+    let mut rng = ChaCha8Rng::seed_from_u64(5);
+    for fault in [
+        Fault::Stuck,
+        Fault::Dead,
+        Fault::Spike,
+        Fault::Shift,
+        Fault::Swap,
+    ] {
+        let mut s = Synth::new(79, 4000.0);
+        let mut caught = 0;
+        for week in 0..40 {
+            let mut days = BTreeMap::new();
+            let wed = date0() + chrono::Duration::days(7 * week + 2);
+            for k in -1..=1 {
+                let date = wed + chrono::Duration::days(k);
+                let mut v = s.day_values(date);
+                if k == 0 {
+                    match fault {
+                        Fault::Stuck => {
+                            let (a, n) = (rng.gen_range(6..=14), rng.gen_range(5..=10));
+                            let x = v[0][a];
+                            v[0][a..a + n].iter_mut().for_each(|y| *y = x);
+                        }
+                        Fault::Dead => {
+                            let (a, n) = (rng.gen_range(7..=14), rng.gen_range(3..=8));
+                            v[0][a..a + n].iter_mut().for_each(|y| *y = 0);
+                        }
+                        Fault::Spike => {
+                            let h = rng.gen_range(6..=20);
+                            v[0][h] = (v[0][h] as f64 * rng.gen_range(5.0..10.0)) as u32;
+                        }
+                        Fault::Shift => {
+                            let h = rng.gen_range(4..=20);
+                            let f = if rng.gen_bool(0.5) { 0.5 } else { 1.6 };
+                            v[0][h..]
+                                .iter_mut()
+                                .for_each(|y| *y = (*y as f64 * f) as u32);
+                        }
+                        _ => v.swap(0, 1),
+                    }
+                }
+                let d = day_counts(
+                    date,
+                    &[(Direction::Fwd, full(&v[0])), (Direction::Rev, full(&v[1]))],
+                );
+                days.insert(date, d);
+            }
+            let (f, _) = check_station(0, &days, false, &QcParams::default());
+            if f.iter().any(|x| {
+                x.date == wed && x.direction == Direction::Fwd && x.action == QcAction::Rejected
+            }) {
+                caught += 1;
+            }
+        }
+        eprintln!("three-day {fault:?}: {caught} of 40 rejected");
+        assert!(caught >= 36, "{fault:?}: {caught} of 40 rejected");
+    }
+}
