@@ -45,6 +45,8 @@ struct Synth {
     rng: ChaCha8Rng,
     daily: f64,
     day_noise: f64,
+    /// Amplitude of a yearly sine of the level (0.2: +-20 % between seasons).
+    seasonal: f64,
 }
 
 impl Synth {
@@ -53,16 +55,20 @@ impl Synth {
             rng: ChaCha8Rng::seed_from_u64(seed),
             daily,
             day_noise: 0.08,
+            seasonal: 0.0,
         }
     }
 
     /// One clean day: both directions, 24 hours, day factor x Poisson noise.
     fn day_values(&mut self, date: NaiveDate) -> [Vec<u32>; 2] {
         let wd = date.weekday().num_days_from_monday();
+        let season =
+            1.0 + self.seasonal * (date.ordinal() as f64 / 365.0 * std::f64::consts::TAU).sin();
         let factor = Normal::new(1.0, self.day_noise)
             .unwrap()
             .sample(&mut self.rng)
-            .max(0.5);
+            .max(0.5)
+            * season;
         [0, 1].map(|d| {
             profile(d, wd, self.daily)
                 .iter()
@@ -927,4 +933,29 @@ fn faults_on_three_day_short_counts_are_caught() {
         eprintln!("three-day {fault:?}: {caught} of 40 rejected");
         assert!(caught >= 36, "{fault:?}: {caught} of 40 rejected");
     }
+}
+
+#[test]
+fn seasonal_level_changes_are_not_faults() {
+    let mut s = Synth::new(80, 4000.0);
+    s.seasonal = 0.25;
+    let mut days = BTreeMap::new();
+    for i in 0..365 {
+        let date = date0() + chrono::Duration::days(i);
+        let v = s.day_values(date);
+        let d = day_counts(
+            date,
+            &[(Direction::Fwd, full(&v[0])), (Direction::Rev, full(&v[1]))],
+        );
+        days.insert(date, d);
+    }
+    let (f, n) = check_station(0, &days, false, &QcParams::default());
+    let rejected = f.iter().filter(|x| x.action == QcAction::Rejected).count();
+    let flagged = f
+        .iter()
+        .filter(|x| x.rule == QcRule::DailyDeviation)
+        .count();
+    assert!(rejected < n / 100, "{rejected} of {n} rejected");
+    // 8 % day noise against a 20 % threshold: a few per cent, not the seasonal swing.
+    assert!(flagged < n * 3 / 100, "{flagged} of {n} flagged");
 }
