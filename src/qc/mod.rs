@@ -1,1 +1,699 @@
-//! qc stage (to be filled).
+//! Count quality control per station x direction x local date, and network checks.
+//!
+//! # Method
+//! Two passes per station, in parallel over stations:
+//!
+//! 1. Every direction-day is turned into an hourly series over the slots of its local day
+//!    (23, 24 or 25 hours; see [`DayCounts::day_hours`]). The rules run on vehicles, or on
+//!    axle hits for axle-only days. A day whose quarter-hour coverage is below
+//!    [`QcParams::min_coverage`] is `incomplete` and rejected; it takes no further part.
+//! 2. From the complete 24-hour days a typical profile is built per station x direction x
+//!    measure x day type x clock hour: each day is scaled to the median daily total and the
+//!    median and MAD (x 1.4826) of every clock hour are taken. The day type is the weekday when
+//!    it has [`QcParams::profile_min_days`] days, else the weekday group (Mon-Fri, Sat, Sun),
+//!    else all working days or all weekend days when there are
+//!    [`QcParams::profile_min_days_pooled`] (working and weekend days are never pooled: their
+//!    shapes differ). Short counts with fewer days of the day's kind only get the
+//!    self-contained rules (flat run, zero run and spike against neighbouring hours). Medians
+//!    make the profile robust to the faulty days it contains.
+//!
+//! Then each complete direction-day is tested against the profile of its day type:
+//!
+//! | rule | tests | action |
+//! |---|---|---|
+//! | `incomplete` | quarter-hour coverage below `min_coverage` | rejected |
+//! | `flat_run` | the same non-zero value in consecutive hours, less likely than `flat_run_max_probability` under Poisson noise | rejected |
+//! | `zero_run` | consecutive zero hours where >= `zero_run_min_expected` vehicles are expected (half the typical volume) | rejected |
+//! | `spike` | one hour >= `spike_min_ratio` x expected and `spike_min_z` deviations above it | rejected |
+//! | `level_shift` | the day's level against the profile steps by >= `level_shift_min_log_ratio` at some hour | rejected |
+//! | `daily_deviation` | the day total deviates from the typical total, at the seasonal level of the days within `daily_deviation_window_days`, by > `daily_deviation_max_share` and 3 Poisson deviations | flagged |
+//! | `swapped_directions` | fwd fits the rev profile and rev the fwd one much better than as recorded | rejected (fwd and rev) |
+//! | `directional_imbalance` | the fwd share of the two-way total moved from the typical share (or the split is beyond `directional_max_share`) | flagged |
+//! | `class_mismatch` | classified quarters differ from vehicle quarters, class sums differ from vehicles, too few light vehicles, or a heavy share far from the station's typical one | flagged |
+//!
+//! Zero runs, spikes and level shifts found against the day's own profile are only flagged
+//! when the day passes all three against the profile of another day type and fits that
+//! profile's shape at least twice as well (chi-square) as its own: a working-day holiday with
+//! a Sunday shape, or the reverse.
+//!
+//! The expected hourly volume on a day is the profile times the day's own robust level (the
+//! volume-weighted median of observed / typical), so that the normal day-to-day variation and
+//! holidays (a whole-day drop with a normal shape) do not make hours look faulty; such days at
+//! most get the flagged `daily_deviation`. Thresholds are volume-aware: Poisson counting noise
+//! sets how long a flat run must be, and zero runs only count where zero traffic is
+//! implausible, so low-volume night hours do not fire.
+//!
+//! Which direction-days are rejected: a finding on `both` rejects that `both` day; a
+//! swapped-directions finding rejects fwd and rev of the day (each carries the other's
+//! traffic; the two-way total would be right, but the split is not, and a day with one
+//! direction only cannot give a two-way figure anyway). Daily deviation, directional and
+//! class findings are only looked for on days no structural rule rejected.
+//!
+//! Days are local calendar days, as the data contract defines them: a short count that starts
+//! at 10:00 on Tuesday and ends at 10:00 on Thursday gives one complete day (Wednesday); its
+//! partial first and last days are rejected as `incomplete`.
+//!
+//! A whole-day drop or rise of one direction only (a fault from the first hour on) has no
+//! step within the day; it is flagged by `daily_deviation` and `directional_imbalance`, not
+//! rejected, since the same signs also mark real one-sided events.
+//!
+//! # Units
+//! Volumes are vehicles (or axle hits) per clock hour; daily totals vehicles per day; shares
+//! are fractions 0..1; z-scores are in standard deviations.
+//!
+//! # References
+//! * FHWA, Traffic Monitoring Guide (2016, 2022 update), ch. 3 (continuous count programme,
+//!   complete days for AADT) and its data-quality check lists (flat runs, zero runs, spikes,
+//!   directional splits, class consistency), from memory.
+//! * AASHTO, Guidelines for Traffic Data Programs (2009), data validation chapter, from memory.
+//! * Robust statistics (median, MAD x 1.4826 for normal consistency): standard.
+//! * Numeric thresholds are from no single source ("common practice"), see [`QcParams`].
+
+pub mod network;
+mod params;
+mod profile;
+mod rules;
+
+#[cfg(test)]
+mod tests;
+
+use std::collections::{BTreeMap, HashSet};
+
+use chrono::NaiveDate;
+use rayon::prelude::*;
+
+use crate::input::counts::CountStore;
+use crate::input::stations::StationList;
+use crate::model::{DayCounts, Direction, Network};
+
+pub use network::{check_network, NetworkFinding};
+pub use params::QcParams;
+use profile::{series, DaySeries, Measure, ProfileSet};
+
+/// A count quality rule.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum QcRule {
+    /// Quarter-hour coverage of the local day below the threshold.
+    Incomplete,
+    /// The same non-zero value for many consecutive hours (stuck sensor).
+    FlatRun,
+    /// Zero counts in hours that normally carry traffic (dead sensor).
+    ZeroRun,
+    /// One hour far above the expected volume.
+    Spike,
+    /// A step change of level within the day.
+    LevelShift,
+    /// The daily total far from the typical day.
+    DailyDeviation,
+    /// The directional split far from the usual one.
+    DirectionalImbalance,
+    /// fwd and rev exchanged for the day.
+    SwappedDirections,
+    /// Class figures inconsistent with vehicles or an implausible class mix.
+    ClassMismatch,
+}
+
+impl QcRule {
+    /// Every rule, in report order.
+    pub const ALL: [QcRule; 9] = [
+        QcRule::Incomplete,
+        QcRule::FlatRun,
+        QcRule::ZeroRun,
+        QcRule::Spike,
+        QcRule::LevelShift,
+        QcRule::DailyDeviation,
+        QcRule::DirectionalImbalance,
+        QcRule::SwappedDirections,
+        QcRule::ClassMismatch,
+    ];
+
+    /// The snake_case name written to qc_log.csv.
+    ///
+    /// ```
+    /// assert_eq!(roadtally::qc::QcRule::FlatRun.as_str(), "flat_run");
+    /// ```
+    pub fn as_str(self) -> &'static str {
+        match self {
+            QcRule::Incomplete => "incomplete",
+            QcRule::FlatRun => "flat_run",
+            QcRule::ZeroRun => "zero_run",
+            QcRule::Spike => "spike",
+            QcRule::LevelShift => "level_shift",
+            QcRule::DailyDeviation => "daily_deviation",
+            QcRule::DirectionalImbalance => "directional_imbalance",
+            QcRule::SwappedDirections => "swapped_directions",
+            QcRule::ClassMismatch => "class_mismatch",
+        }
+    }
+}
+
+/// What a finding does to its direction-day.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum QcAction {
+    /// Left out of every later computation.
+    Rejected,
+    /// Kept and reported.
+    Flagged,
+}
+
+impl QcAction {
+    /// `rejected` or `flagged`, as in qc_log.csv.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            QcAction::Rejected => "rejected",
+            QcAction::Flagged => "flagged",
+        }
+    }
+}
+
+/// One rule firing on one direction-day: a row of qc_log.csv.
+#[derive(Debug, Clone, PartialEq)]
+pub struct QcFinding {
+    /// Station index in [`StationList::stations`].
+    pub station: usize,
+    /// Direction of the direction-day.
+    pub direction: Direction,
+    /// Local date.
+    pub date: NaiveDate,
+    /// The rule that fired.
+    pub rule: QcRule,
+    /// Rejected or flagged.
+    pub action: QcAction,
+    /// A short human-readable reason with numbers and units.
+    pub detail: String,
+}
+
+/// Direction-days a rule fired on, by action.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct RuleCount {
+    /// Direction-days the rule flagged.
+    pub flagged: usize,
+    /// Direction-days the rule rejected.
+    pub rejected: usize,
+}
+
+/// Counts of direction-days by outcome.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct QcSummary {
+    /// Direction-days checked (every direction with records on a station-day).
+    pub direction_days: usize,
+    /// Direction-days with no finding.
+    pub clean: usize,
+    /// Direction-days kept with at least one flag.
+    pub flagged: usize,
+    /// Direction-days rejected.
+    pub rejected: usize,
+    /// Per rule, in [`QcRule::ALL`] order.
+    pub by_rule: Vec<(QcRule, RuleCount)>,
+}
+
+impl QcSummary {
+    /// Direction-days kept for computation (clean or flagged).
+    pub fn accepted(&self) -> usize {
+        self.clean + self.flagged
+    }
+}
+
+/// Result of the quality-control stage.
+#[derive(Debug, Clone, Default)]
+pub struct QcOutput {
+    /// Every finding, sorted by station, date, direction, rule.
+    pub findings: Vec<QcFinding>,
+    /// Rejected direction-days: (station index, local date, direction).
+    pub rejected: HashSet<(usize, NaiveDate, Direction)>,
+    /// Outcome counts.
+    pub summary: QcSummary,
+    /// Findings of the network checks.
+    pub network: Vec<NetworkFinding>,
+}
+
+impl QcOutput {
+    /// Whether a direction-day was rejected (and must be left out of later computation).
+    pub fn is_rejected(&self, station: usize, date: NaiveDate, d: Direction) -> bool {
+        self.rejected.contains(&(station, date, d))
+    }
+}
+
+/// Runs every count rule over the store and the network checks over the network.
+///
+/// ```
+/// use roadtally::qc::{run, QcParams};
+/// let out = run(&Default::default(), &Default::default(), &Default::default(), &QcParams::default());
+/// assert!(out.findings.is_empty() && out.summary.direction_days == 0);
+/// ```
+pub fn run(
+    store: &CountStore,
+    stations: &StationList,
+    network: &Network,
+    params: &QcParams,
+) -> QcOutput {
+    let oneway = |si: usize| {
+        stations
+            .stations
+            .get(si)
+            .and_then(|s| network.segments.get(s.segment))
+            .is_some_and(|s| s.oneway)
+    };
+    let per_station: Vec<(Vec<QcFinding>, usize)> = store
+        .days
+        .par_iter()
+        .enumerate()
+        .map(|(si, days)| check_station(si, days, oneway(si), params))
+        .collect();
+    let mut findings = Vec::new();
+    let mut direction_days = 0;
+    for (f, n) in per_station {
+        findings.extend(f);
+        direction_days += n;
+    }
+    findings.sort_by(|a, b| {
+        (a.station, a.date, a.direction, a.rule).cmp(&(b.station, b.date, b.direction, b.rule))
+    });
+    let rejected: HashSet<(usize, NaiveDate, Direction)> = findings
+        .iter()
+        .filter(|f| f.action == QcAction::Rejected)
+        .map(|f| (f.station, f.date, f.direction))
+        .collect();
+    let flagged: HashSet<(usize, NaiveDate, Direction)> = findings
+        .iter()
+        .map(|f| (f.station, f.date, f.direction))
+        .filter(|k| !rejected.contains(k))
+        .collect();
+    let mut by_rule: BTreeMap<QcRule, RuleCount> = QcRule::ALL
+        .iter()
+        .map(|r| (*r, RuleCount::default()))
+        .collect();
+    for f in &findings {
+        let c = by_rule.get_mut(&f.rule).expect("every rule is listed");
+        match f.action {
+            QcAction::Rejected => c.rejected += 1,
+            QcAction::Flagged => c.flagged += 1,
+        }
+    }
+    let summary = QcSummary {
+        direction_days,
+        clean: direction_days - rejected.len() - flagged.len(),
+        flagged: flagged.len(),
+        rejected: rejected.len(),
+        by_rule: by_rule.into_iter().collect(),
+    };
+    QcOutput {
+        findings,
+        rejected,
+        summary,
+        network: check_network(network, params),
+    }
+}
+
+/// Checks one station: returns its findings and the number of direction-days looked at.
+pub(crate) fn check_station(
+    station: usize,
+    days: &BTreeMap<NaiveDate, DayCounts>,
+    oneway: bool,
+    p: &QcParams,
+) -> (Vec<QcFinding>, usize) {
+    let mut out = Vec::new();
+    let mut count = 0;
+    // Pass 1: series and coverage.
+    let mut complete: BTreeMap<(Direction, NaiveDate), DaySeries> = BTreeMap::new();
+    let mut classified: BTreeMap<(Direction, NaiveDate), &crate::model::DirectionDay> =
+        BTreeMap::new();
+    for (date, day) in days {
+        for d in Direction::ALL {
+            let Some(dd) = day.dir(d) else { continue };
+            count += 1;
+            let s = series(day, dd);
+            if s.coverage + 1e-9 < p.min_coverage {
+                let n = s.values.len();
+                out.push(QcFinding {
+                    station,
+                    direction: d,
+                    date: *date,
+                    rule: QcRule::Incomplete,
+                    action: QcAction::Rejected,
+                    detail: format!(
+                        "{:.1} % of the {n} hours of the local day covered by {} figures (needs {:.1} %)",
+                        s.coverage * 100.0,
+                        if s.measure == Measure::Vehicles { "vehicle" } else { "axle" },
+                        p.min_coverage * 100.0
+                    ),
+                });
+                continue;
+            }
+            if dd.class_quarters != 0 {
+                classified.insert((d, *date), dd);
+            }
+            complete.insert((d, *date), s);
+        }
+    }
+    // Profiles per direction and measure.
+    let mut profiles: BTreeMap<(Direction, Measure), ProfileSet> = BTreeMap::new();
+    for d in Direction::ALL {
+        for m in [Measure::Vehicles, Measure::Axles] {
+            let sel: Vec<&DaySeries> = complete
+                .iter()
+                .filter(|((dd, _), s)| *dd == d && s.measure == m)
+                .map(|(_, s)| s)
+                .collect();
+            if !sel.is_empty() {
+                profiles.insert(
+                    (d, m),
+                    ProfileSet::new(&sel, p.profile_min_days, p.profile_min_days_pooled),
+                );
+            }
+        }
+    }
+    let profile_of = |d: Direction, s: &DaySeries| {
+        profiles
+            .get(&(d, s.measure))
+            .and_then(|ps| ps.for_date(s.date))
+    };
+    // Swapped directions first: on such a day every single-direction rule would fire on
+    // symptoms of the swap.
+    let mut rejected: HashSet<(Direction, NaiveDate)> = HashSet::new();
+    if !oneway {
+        swapped_rules(station, &complete, &profile_of, p, &mut rejected, &mut out);
+    }
+    // Pass 2: single-direction rules.
+    let mut levels: Vec<(Direction, NaiveDate, f64)> = Vec::new();
+    for ((d, date), s) in &complete {
+        if rejected.contains(&(*d, *date)) {
+            continue;
+        }
+        let prof = profile_of(*d, s);
+        let expected = prof.map(|pr| pr.expected(s));
+        let scaled = expected
+            .as_ref()
+            .map(|e| (e.as_slice(), rules::day_scale(s, e)));
+        let mut push = |rule, action, detail: String| {
+            out.push(QcFinding {
+                station,
+                direction: *d,
+                date: *date,
+                rule,
+                action,
+                detail,
+            })
+        };
+        let mut structural = Vec::new();
+        if let Some(t) = rules::flat_run(s, scaled, p) {
+            structural.push((QcRule::FlatRun, t));
+        }
+        // The rules that test the day against a profile (or, without one, its neighbours).
+        let against = |pr: Option<&profile::Profile>| {
+            let mut v = Vec::new();
+            if let Some(t) = rules::zero_run(s, pr, p) {
+                v.push((QcRule::ZeroRun, t));
+            }
+            if let Some(t) = rules::spike(s, pr, p) {
+                v.push((QcRule::Spike, t));
+            }
+            if let Some(t) = pr.and_then(|pr| rules::level_shift(s, pr, p)) {
+                v.push((QcRule::LevelShift, t));
+            }
+            v
+        };
+        let own = against(prof);
+        let mut holiday_shape = Vec::new();
+        if !own.is_empty() && prof.is_some() {
+            // A holiday has the shape of another day type (a Sunday-like Thursday): when the
+            // day passes against such a profile, its findings are flagged, not rejected.
+            let other = profiles
+                .get(&(*d, s.measure))
+                .map(|ps| ps.other_day_types(*date))
+                .unwrap_or_default()
+                .into_iter()
+                .find(|o| {
+                    // It must fit that profile clearly better in shape, too.
+                    let own_misfit = prof.map_or(0.0, |pr| rules::misfit(s, pr, p));
+                    against(Some(o)).is_empty() && 2.0 * rules::misfit(s, o, p) < own_misfit
+                });
+            if let Some(o) = other {
+                holiday_shape = own
+                    .iter()
+                    .map(|(r, t)| (*r, format!("{t}; fits the {} profile (holiday?)", o.label)))
+                    .collect();
+            } else {
+                structural.extend(own);
+            }
+        } else {
+            structural.extend(own);
+        }
+        if !structural.is_empty() {
+            rejected.insert((*d, *date));
+        }
+        for (rule, t) in structural {
+            push(rule, QcAction::Rejected, t);
+        }
+        for (rule, t) in holiday_shape {
+            push(rule, QcAction::Flagged, t);
+        }
+        if !rejected.contains(&(*d, *date)) {
+            if let Some(pr) = prof {
+                let e: f64 = pr.expected(s).iter().sum();
+                if e > 0.0 {
+                    levels.push((*d, *date, s.total() / e));
+                }
+            }
+        }
+    }
+    // Daily totals against the typical day, at the seasonal level of the neighbouring days.
+    for &(d, date, _) in &levels {
+        let window = p.daily_deviation_window_days as i64;
+        let near: Vec<f64> = levels
+            .iter()
+            .filter(|(dd, other, _)| {
+                *dd == d && *other != date && (*other - date).num_days().abs() <= window
+            })
+            .map(|x| x.2)
+            .collect();
+        let season = if window > 0 && near.len() >= p.profile_min_days {
+            rules::median_of(near)
+        } else {
+            1.0
+        };
+        let s = &complete[&(d, date)];
+        if let Some(t) = profile_of(d, s).and_then(|pr| rules::daily_deviation(s, pr, season, p)) {
+            out.push(QcFinding {
+                station,
+                direction: d,
+                date,
+                rule: QcRule::DailyDeviation,
+                action: QcAction::Flagged,
+                detail: t,
+            });
+        }
+    }
+    // Both directions of a day.
+    if !oneway {
+        two_direction_rules(station, &complete, &rejected, &profile_of, p, &mut out);
+    }
+    // Classes.
+    class_rules(station, &classified, &complete, &rejected, p, &mut out);
+    (out, count)
+}
+
+/// fwd/rev pairs of complete days with the same measure and length.
+fn direction_pairs(
+    complete: &BTreeMap<(Direction, NaiveDate), DaySeries>,
+) -> Vec<(&DaySeries, &DaySeries)> {
+    complete
+        .iter()
+        .filter(|((d, _), _)| *d == Direction::Fwd)
+        .filter_map(|((_, date), f)| {
+            let r = complete.get(&(Direction::Rev, *date))?;
+            (r.measure == f.measure && r.values.len() == f.values.len()).then_some((f, r))
+        })
+        .collect()
+}
+
+fn swapped_rules<'a>(
+    station: usize,
+    complete: &BTreeMap<(Direction, NaiveDate), DaySeries>,
+    profile_of: &ProfileLookup<'a>,
+    p: &QcParams,
+    rejected: &mut HashSet<(Direction, NaiveDate)>,
+    out: &mut Vec<QcFinding>,
+) {
+    for (f, r) in direction_pairs(complete) {
+        let (Some(pf), Some(pr)) = (profile_of(Direction::Fwd, f), profile_of(Direction::Rev, r))
+        else {
+            continue;
+        };
+        let same = rules::misfit(f, pf, p) + rules::misfit(r, pr, p);
+        let swap = rules::misfit(f, pr, p) + rules::misfit(r, pf, p);
+        if same > swap * p.swap_min_misfit_ratio && same - swap > p.swap_min_misfit_gain {
+            let detail = format!(
+                "hourly shapes fit the other direction's profile: misfit {same:.0} as recorded, {swap:.0} with fwd and rev exchanged (chi-square over {} hours)",
+                2 * f.values.len()
+            );
+            for d in [Direction::Fwd, Direction::Rev] {
+                rejected.insert((d, f.date));
+                out.push(QcFinding {
+                    station,
+                    direction: d,
+                    date: f.date,
+                    rule: QcRule::SwappedDirections,
+                    action: QcAction::Rejected,
+                    detail: detail.clone(),
+                });
+            }
+        }
+    }
+}
+
+type ProfileLookup<'a> = dyn Fn(Direction, &DaySeries) -> Option<&'a profile::Profile> + 'a;
+
+fn two_direction_rules<'a>(
+    station: usize,
+    complete: &BTreeMap<(Direction, NaiveDate), DaySeries>,
+    rejected: &HashSet<(Direction, NaiveDate)>,
+    profile_of: &ProfileLookup<'a>,
+    p: &QcParams,
+    out: &mut Vec<QcFinding>,
+) {
+    let pairs: Vec<(&DaySeries, &DaySeries)> = direction_pairs(complete)
+        .into_iter()
+        .filter(|(f, _)| {
+            !rejected.contains(&(Direction::Fwd, f.date))
+                && !rejected.contains(&(Direction::Rev, f.date))
+        })
+        .collect();
+    let share = |f: &DaySeries, r: &DaySeries| {
+        let t = f.total() + r.total();
+        (t > 0.0).then(|| f.total() / t)
+    };
+    let shares: Vec<f64> = pairs.iter().filter_map(|(f, r)| share(f, r)).collect();
+    let typical_share =
+        (shares.len() >= p.profile_min_days_pooled).then(|| rules::median_of(shares));
+    for (f, r) in pairs {
+        let date = f.date;
+        let mut finding = |d, rule, action, detail: String| {
+            out.push(QcFinding {
+                station,
+                direction: d,
+                date,
+                rule,
+                action,
+                detail,
+            })
+        };
+        let Some(sh) = share(f, r) else { continue };
+        let (fires, why) = match typical_share {
+            Some(t) => (
+                (sh - t).abs() > p.directional_max_share_change,
+                format!("the typical {:.0} %", t * 100.0),
+            ),
+            None => (
+                sh.max(1.0 - sh) > p.directional_max_share,
+                format!(
+                    "at most {:.0} % either way",
+                    p.directional_max_share * 100.0
+                ),
+            ),
+        };
+        if fires {
+            // Report on the direction that moved most from its own typical total, or else
+            // the lighter one (a failing detector usually undercounts).
+            let dev = |s: &DaySeries, d| {
+                profile_of(d, s).map(|pr| {
+                    let e: f64 = pr.expected(s).iter().sum();
+                    ((s.total() + 1.0) / (e + 1.0)).ln().abs()
+                })
+            };
+            let d = match (dev(f, Direction::Fwd), dev(r, Direction::Rev)) {
+                (Some(a), Some(b)) if a >= b => Direction::Fwd,
+                (Some(_), Some(_)) => Direction::Rev,
+                _ if f.total() <= r.total() => Direction::Fwd,
+                _ => Direction::Rev,
+            };
+            finding(
+                d,
+                QcRule::DirectionalImbalance,
+                QcAction::Flagged,
+                format!(
+                    "fwd carries {:.0} % of the two-way total {:.0} {} (against {why})",
+                    sh * 100.0,
+                    f.total() + r.total(),
+                    f.measure.unit()
+                ),
+            );
+        }
+    }
+}
+
+fn class_rules(
+    station: usize,
+    classified: &BTreeMap<(Direction, NaiveDate), &crate::model::DirectionDay>,
+    complete: &BTreeMap<(Direction, NaiveDate), DaySeries>,
+    rejected: &HashSet<(Direction, NaiveDate)>,
+    p: &QcParams,
+    out: &mut Vec<QcFinding>,
+) {
+    let heavy_share = |dd: &crate::model::DirectionDay| {
+        let t: u64 = dd.classes.iter().sum();
+        (t > 0).then(|| dd.classes[3..].iter().sum::<u64>() as f64 / t as f64)
+    };
+    for d in Direction::ALL {
+        let days: Vec<(NaiveDate, &crate::model::DirectionDay)> = classified
+            .iter()
+            .filter(|((dd, date), _)| *dd == d && !rejected.contains(&(d, *date)))
+            .map(|((_, date), dd)| (*date, *dd))
+            .collect();
+        let shares: Vec<f64> = days
+            .iter()
+            .filter(|(_, dd)| dd.class_quarters == dd.vehicle_quarters)
+            .filter_map(|(_, dd)| heavy_share(dd))
+            .collect();
+        let typical = (shares.len() >= p.profile_min_days_pooled).then(|| rules::median_of(shares));
+        for (date, dd) in days {
+            if !complete.contains_key(&(d, date)) {
+                continue;
+            }
+            let total: u64 = dd.classes.iter().sum();
+            let light: u64 = dd.classes[..3].iter().sum();
+            let veh: u64 = dd.vehicles.iter().map(|&v| v as u64).sum();
+            let mut why = Vec::new();
+            if dd.class_quarters != dd.vehicle_quarters {
+                why.push(format!(
+                    "{} of {} quarter-hours with vehicles are classified",
+                    (dd.class_quarters & dd.vehicle_quarters).count_ones(),
+                    dd.vehicle_quarters.count_ones()
+                ));
+            } else if total != veh {
+                why.push(format!(
+                    "classes sum to {total} veh but vehicles are {veh} veh"
+                ));
+            }
+            if total > 0 {
+                let ls = light as f64 / total as f64;
+                if ls < p.class_min_light_share {
+                    why.push(format!(
+                        "classes 1-3 are {:.0} % of {total} classified veh (at least {:.0} % expected)",
+                        ls * 100.0,
+                        p.class_min_light_share * 100.0
+                    ));
+                }
+                if let (Some(t), Some(h)) = (typical, heavy_share(dd)) {
+                    if (h - t).abs() > p.class_max_heavy_share_change {
+                        why.push(format!(
+                            "heavy share (classes 4-13) {:.0} % against the typical {:.0} %",
+                            h * 100.0,
+                            t * 100.0
+                        ));
+                    }
+                }
+            }
+            if !why.is_empty() {
+                out.push(QcFinding {
+                    station,
+                    direction: d,
+                    date,
+                    rule: QcRule::ClassMismatch,
+                    action: QcAction::Flagged,
+                    detail: why.join("; "),
+                });
+            }
+        }
+    }
+}
