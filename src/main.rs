@@ -20,6 +20,34 @@ fn main() -> ExitCode {
     }
 }
 
+/// A table as aligned text for the terminal.
+fn table_text(t: &roadtally::output::Table) -> String {
+    use roadtally::output::table::cell_text;
+    let cells: Vec<Vec<String>> =
+        std::iter::once(t.columns.iter().map(|c| c.name.clone()).collect())
+            .chain(t.rows.iter().map(|r| {
+                r.iter()
+                    .zip(&t.columns)
+                    .map(|(c, col)| cell_text(c, col.format))
+                    .collect()
+            }))
+            .collect();
+    let widths: Vec<usize> = (0..t.columns.len())
+        .map(|i| cells.iter().map(|r| r[i].len()).max().unwrap_or(0))
+        .collect();
+    cells
+        .iter()
+        .map(|r| {
+            r.iter()
+                .zip(&widths)
+                .map(|(c, w)| format!("{c:>w$}"))
+                .collect::<Vec<_>>()
+                .join("  ")
+                + "\n"
+        })
+        .collect()
+}
+
 fn dispatch(cli: &Cli) -> anyhow::Result<u8> {
     match &cli.command {
         Command::Check { study, year } => {
@@ -35,6 +63,23 @@ fn dispatch(cli: &Cli) -> anyhow::Result<u8> {
             let report = pipeline::run(&config)?;
             if !cli.quiet {
                 print!("{}", report.check);
+                let q = &report.qc;
+                println!(
+                    "quality control: {} direction-days, {} clean, {} flagged, {} rejected",
+                    q.direction_days, q.clean, q.flagged, q.rejected
+                );
+                let [c, s, e] = report.basis_counts;
+                println!(
+                    "segments: {c} from permanent counters, {s} from short counts, {e} estimated"
+                );
+                print!(
+                    "\nshort-count calibration\n{}",
+                    table_text(&report.calibration)
+                );
+                print!(
+                    "\ncross-validation of uncounted-segment estimates\n{}",
+                    table_text(&report.cross_validation)
+                );
                 println!(
                     "\nwrote {} files to {}",
                     report.written.len(),

@@ -21,6 +21,9 @@ pub enum PipelineError {
     /// `run` was called without an output folder.
     #[error("no output folder given (use --out <dir>)")]
     NoOutput,
+    /// No study year: none in study.toml and no permanent-counter record.
+    #[error("study.toml: no `year` given and no permanent-counter record to take it from")]
+    NoYear,
 }
 
 /// What reading and checking found.
@@ -101,28 +104,170 @@ pub fn check(config: &Config) -> Result<CheckReport, PipelineError> {
     Ok(report(&data, year))
 }
 
-/// What a run wrote.
+/// What a run wrote and found.
 #[derive(Debug, Clone)]
 pub struct RunReport {
     /// The reading summary.
     pub check: CheckReport,
+    /// Quality-control summary.
+    pub qc: crate::qc::QcSummary,
     /// Files written.
     pub written: Vec<PathBuf>,
+    /// Segments by basis: continuous, short_count, estimated.
+    pub basis_counts: [usize; 3],
+    /// The calibration table and cross-validation table, for the terminal summary.
+    pub calibration: output::Table,
+    /// Cross-validation table.
+    pub cross_validation: output::Table,
+}
+
+/// Every stage's output, for writers and tests.
+pub struct Results {
+    /// What was read.
+    pub data: StudyData,
+    /// The study year.
+    pub year: i32,
+    /// Quality control.
+    pub qc: crate::qc::QcOutput,
+    /// Permanent-counter statistics.
+    pub continuous: crate::continuous::stage::ContinuousOutput,
+    /// Factor groups.
+    pub factors: crate::factors::stage::FactorOutput,
+    /// Calibration experiment.
+    pub calibration: crate::expansion::calibration::Calibration,
+    /// Expanded short counts.
+    pub expansion: crate::expansion::stage::ExpansionOutput,
+    /// Spatial estimates.
+    pub spatial: crate::spatial::stage::SpatialOutput,
+    /// Per-segment rows.
+    pub segments: Vec<crate::segments::SegmentRow>,
+}
+
+/// Runs every stage and keeps their outputs (no files written).
+pub fn compute(config: &Config) -> Result<Results, PipelineError> {
+    let progress = Progress::new(config.quiet);
+    let settings = &config.settings;
+    let mut data = input::read_study(&config.study, &progress)?;
+    let assignment =
+        input::extras::read_group_assignment(&data.root, &mut data.rejected, &mut data.files)?;
+    let year = study_year(config, &data).ok_or(PipelineError::NoYear)?;
+    let qc = crate::qc::run(&data.counts, &data.stations, &data.network, &settings.qc);
+    let continuous = crate::continuous::stage::run(&data, year, &qc, &settings.continuous);
+    let factors =
+        crate::factors::stage::run(&data, &continuous, year, assignment, &settings.factors);
+    let calibration = calibrate(&data, &continuous, &factors, &settings.expansion);
+    let expansion = crate::expansion::stage::run(
+        &data,
+        year,
+        &qc,
+        &factors,
+        &calibration,
+        &settings.expansion,
+    );
+    let obs = crate::segments::observations(&data, &continuous, &expansion);
+    let spatial = crate::spatial::stage::run(&data.network, &obs, &settings.spatial);
+    let segments = crate::segments::assemble(&data, &continuous, &factors, &expansion, &spatial);
+    Ok(Results {
+        data,
+        year,
+        qc,
+        continuous,
+        factors,
+        calibration,
+        expansion,
+        spatial,
+        segments,
+    })
+}
+
+/// The calibration experiment on the study's own permanent counters.
+pub fn calibrate(
+    data: &StudyData,
+    cont: &crate::continuous::stage::ContinuousOutput,
+    factors: &crate::factors::stage::FactorOutput,
+    params: &crate::expansion::ExpansionParams,
+) -> crate::expansion::calibration::Calibration {
+    use crate::expansion::calibration::CalibrationStation;
+    let usable: Vec<&crate::continuous::stage::StationStats> = cont
+        .stations
+        .iter()
+        .filter(|s| s.aadt.sufficiency.usable_for_factors())
+        .collect();
+    let stations: Vec<CalibrationStation> = usable
+        .iter()
+        .map(|s| {
+            let st = &data.stations.stations[s.station];
+            let seg = &data.network.segments[st.segment];
+            CalibrationStation {
+                station_id: st.id.0.clone(),
+                group: factors.groups[factors.segment_group[st.segment]]
+                    .name
+                    .clone(),
+                class_group: seg.functional_class.broad_group().to_string(),
+                hours: s.hours.clone(),
+                aadt: s.aadt_value,
+                year: s.aadt.year,
+            }
+        })
+        .collect();
+    let make = |idx: &[usize]| {
+        let sel: Vec<&crate::continuous::stage::StationStats> =
+            idx.iter().map(|&i| usable[i]).collect();
+        crate::factors::stage::group_factors(&sel).unwrap_or(crate::expansion::GroupFactors {
+            dow_month: [[1.0; 12]; 7],
+            dow_month_cv: [[None; 12]; 7],
+            day_cv: None,
+            stations: 0,
+        })
+    };
+    crate::expansion::calibration::calibrate(&stations, &make, params)
 }
 
 /// Runs the whole pipeline and writes the outputs.
 pub fn run(config: &Config) -> Result<RunReport, PipelineError> {
     let out = config.out.clone().ok_or(PipelineError::NoOutput)?;
-    let progress = Progress::new(config.quiet);
-    let data = input::read_study(&config.study, &progress)?;
-    let year = study_year(config, &data);
-    let check = report(&data, year);
+    let r = compute(config)?;
+    let check = report(&r.data, Some(r.year));
+    let data = &r.data;
+    let seg_table = tables::segment_statistics(data, &r.segments);
+    let calibration = tables::calibration_table(&r.calibration);
+    let cross_validation = tables::cross_validation(data, &r.spatial);
+    let all = [
+        seg_table,
+        tables::station_statistics(data, &r.continuous, &r.factors),
+        tables::factors_table(&r.factors, config.settings.factors.target_precision),
+        tables::factor_groups(data, &r.factors),
+        tables::short_counts(data, &r.expansion),
+        calibration.clone(),
+        cross_validation.clone(),
+        tables::spatial_model(&r.spatial),
+        tables::qc_log(data, &r.qc),
+        tables::network_findings(&r.qc),
+        tables::rejected_rows(&data.rejected),
+    ];
     output::ensure_dir(&out)?;
-    let written = vec![csv_out::write(
-        &out,
-        &tables::rejected_rows(&data.rejected),
-    )?];
-    Ok(RunReport { check, written })
+    let mut written = Vec::new();
+    for t in &all {
+        written.push(csv_out::write(&out, t)?);
+    }
+    let fdir = out.join("factors");
+    output::ensure_dir(&fdir)?;
+    written.push(csv_out::write(
+        &fdir,
+        &tables::group_assignment(&r.factors),
+    )?);
+    let mut basis_counts = [0; 3];
+    for s in &r.segments {
+        basis_counts[s.basis as usize] += 1;
+    }
+    Ok(RunReport {
+        check,
+        qc: r.qc.summary.clone(),
+        written,
+        basis_counts,
+        calibration,
+        cross_validation,
+    })
 }
 
 impl fmt::Display for CheckReport {

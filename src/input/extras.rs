@@ -229,3 +229,72 @@ pub fn read_toll(
     files.push(summary);
     Ok(Some(out))
 }
+
+/// Relative name of the optional group-assignment override.
+pub const ASSIGNMENT_FILE: &str = "factors/group_assignment.csv";
+
+/// Reads `factors/group_assignment.csv` when the study has one (the table `run` writes to
+/// `<out>/factors/`, edited). Bad rows are logged in `rejects`.
+pub fn read_group_assignment(
+    root: &Path,
+    rejects: &mut Vec<RejectedRow>,
+    files: &mut Vec<FileSummary>,
+) -> Result<Option<Vec<crate::factors::stage::AssignmentRow>>, InputError> {
+    let Some(mut f) = open_optional(root, ASSIGNMENT_FILE)? else {
+        return Ok(None);
+    };
+    let c_group = f.require("factor_group")?;
+    let c_route = f.optional("route");
+    let c_fc = f.optional("functional_class");
+    let c_area = f.optional("area");
+    let mut out = Vec::new();
+    let mut summary = FileSummary::new(ASSIGNMENT_FILE);
+    let mut rec = csv::ByteRecord::new();
+    while f
+        .reader
+        .read_byte_record(&mut rec)
+        .map_err(|e| read_error(Path::new(ASSIGNMENT_FILE), e))?
+    {
+        let line = rec.position().map_or(0, |p| p.line());
+        summary.rows += 1;
+        let get = |c: Option<usize>| c.and_then(|c| cell(&rec, c));
+        let parsed = (|| {
+            let group = cell(&rec, c_group).map(show).ok_or((
+                "factor_group",
+                String::new(),
+                "factor_group is empty",
+            ))?;
+            let functional_class = match get(c_fc) {
+                None => None,
+                Some(v) => Some(
+                    std::str::from_utf8(v)
+                        .ok()
+                        .and_then(|t| t.parse::<u8>().ok())
+                        .filter(|c| (1..=7).contains(c))
+                        .ok_or(("functional_class", show(v), "functional_class is not 1..7"))?,
+                ),
+            };
+            let area = match get(c_area) {
+                None => None,
+                Some(b"urban") => Some(crate::model::Area::Urban),
+                Some(b"rural") => Some(crate::model::Area::Rural),
+                Some(v) => return Err(("area", show(v), "area is not `urban` or `rural`")),
+            };
+            Ok(crate::factors::stage::AssignmentRow {
+                route: get(c_route).map(show),
+                functional_class,
+                area,
+                group,
+            })
+        })();
+        match parsed {
+            Ok(r) => out.push(r),
+            Err((col, val, why)) => {
+                rejects.push(RejectedRow::new(ASSIGNMENT_FILE, line, col, &val, why));
+                summary.rejected += 1;
+            }
+        }
+    }
+    files.push(summary);
+    Ok(Some(out))
+}

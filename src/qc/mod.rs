@@ -258,7 +258,17 @@ pub fn run(
         .days
         .par_iter()
         .enumerate()
-        .map(|(si, days)| check_station(si, days, oneway(si), params))
+        .map(|(si, days)| {
+            let (mut f, n) = check_station(si, days, oneway(si), params);
+            let short = stations
+                .stations
+                .get(si)
+                .is_some_and(|s| s.kind == crate::model::StationKind::Short);
+            if short {
+                soften_edge_days(&mut f, days);
+            }
+            (f, n)
+        })
         .collect();
     let mut findings = Vec::new();
     let mut direction_days = 0;
@@ -302,6 +312,32 @@ pub fn run(
         rejected,
         summary,
         network: check_network(network, params),
+    }
+}
+
+/// A short count starts and ends part-way through a day: its first and last days are
+/// incomplete by design, not by fault. Their `incomplete` finding is flagged, not rejected, so
+/// their hours still enter the count's consecutive 24-hour periods (see `expansion`).
+/// A gap inside a count is still rejected.
+fn soften_edge_days(findings: &mut [QcFinding], days: &BTreeMap<NaiveDate, DayCounts>) {
+    for f in findings.iter_mut() {
+        if f.rule != QcRule::Incomplete {
+            continue;
+        }
+        let has = |d: Option<NaiveDate>| {
+            d.and_then(|d| days.get(&d))
+                .is_some_and(|day| day.dir(f.direction).is_some())
+        };
+        let first = !has(f.date.pred_opt());
+        let last = !has(f.date.succ_opt());
+        if first || last {
+            f.action = QcAction::Flagged;
+            f.detail = format!(
+                "partial {} day of a short count (hours used in 24-hour periods): {}",
+                if first { "first" } else { "last" },
+                f.detail
+            );
+        }
     }
 }
 
@@ -695,5 +731,11 @@ fn class_rules(
                 });
             }
         }
+    }
+}
+
+impl crate::model::views::DayFilter for QcOutput {
+    fn excluded(&self, station: usize, date: NaiveDate, d: Direction) -> bool {
+        self.is_rejected(station, date, d)
     }
 }
