@@ -155,7 +155,13 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
     let continuous = crate::continuous::stage::run(&data, year, &qc, &settings.continuous);
     let factors =
         crate::factors::stage::run(&data, &continuous, year, assignment, &settings.factors);
-    let calibration = calibrate(&data, &continuous, &factors, &settings.expansion);
+    let calibration = calibrate(
+        &data,
+        &continuous,
+        &factors,
+        &settings.expansion,
+        settings.factors.cell_factors,
+    );
     let expansion = crate::expansion::stage::run(
         &data,
         year,
@@ -186,6 +192,7 @@ pub fn calibrate(
     cont: &crate::continuous::stage::ContinuousOutput,
     factors: &crate::factors::stage::FactorOutput,
     params: &crate::expansion::ExpansionParams,
+    cell_how: crate::factors::stage::CellFactors,
 ) -> crate::expansion::calibration::Calibration {
     use crate::expansion::calibration::CalibrationStation;
     let usable: Vec<&crate::continuous::stage::StationStats> = cont
@@ -210,10 +217,11 @@ pub fn calibrate(
             }
         })
         .collect();
+    let how = cell_how;
     let make = |idx: &[usize]| {
         let sel: Vec<&crate::continuous::stage::StationStats> =
             idx.iter().map(|&i| usable[i]).collect();
-        crate::factors::stage::group_factors(&sel).unwrap_or(crate::expansion::GroupFactors {
+        crate::factors::stage::group_factors(&sel, how).unwrap_or(crate::expansion::GroupFactors {
             dow_month: [[1.0; 12]; 7],
             dow_month_cv: [[None; 12]; 7],
             day_cv: None,

@@ -41,6 +41,8 @@ pub struct ExpandedCount {
     pub classified: bool,
     /// The expansion (log sd already scaled by the calibration).
     pub expanded: Expanded,
+    /// The 24-hour periods that were expanded.
+    pub periods: Vec<super::CountPeriod>,
     /// Heavy share from the count's own classes (expanded), when classified.
     pub heavy_share: Option<f64>,
     /// Single-unit share, when classified.
@@ -169,6 +171,7 @@ pub fn run(
                 measure: measure_kind,
                 year: cy,
             };
+            let periods = count.periods.clone();
             match expand_for_year(&count, gf, growth, year, params) {
                 Ok(mut e) => {
                     let c = params
@@ -196,6 +199,7 @@ pub fn run(
                         },
                         classified,
                         expanded: e,
+                        periods,
                         heavy_share: hs,
                         single_unit_share: sus,
                         combination_share: cus,

@@ -45,6 +45,56 @@ pub struct FactorParams {
     pub cluster_n_min: usize,
     /// Standard error of the yearly log growth when no history exists. Default 0.02.
     pub no_history_slope_se: f64,
+    /// Which day-of-week-by-month factors expand short counts (see [`CellFactors`]).
+    /// Default `smoothed`.
+    pub cell_factors: CellFactors,
+    /// Rural segments within this distance (km, straight line between midpoints) of a
+    /// recreational counter, and not sent elsewhere by a route row, join the recreational
+    /// group: recreational traffic belongs to places (lakes, coasts, mountains), and the TMG
+    /// treats recreational groups as geographic. 0 turns it off. Default 10 (project choice).
+    pub recreational_radius_km: f64,
+}
+
+/// How the 7 x 12 day-of-week-by-month factors are formed from a counter's year.
+///
+/// A single cell is the mean of only four or five days, so with few counters per group its
+/// day-to-day noise (several per cent) passes straight into every count it expands. The
+/// product of the monthly and day-of-week factors (the TMG's `M x D` application) is far less
+/// noisy but assumes the weekly pattern is the same in every month. `smoothed`, the default,
+/// keeps the product and restores the seasonal difference between working days and weekends:
+/// `F_ij = MF_j · DF_i · r_{t(i),j}`, where `r_tj` is the ratio of the mean cell factor to the
+/// mean product over the weekdays of type t (Monday-Friday, or Saturday-Sunday) in month j.
+#[derive(Debug, Clone, Copy, Serialize, Deserialize, PartialEq, Eq, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum CellFactors {
+    /// The 84 cell factors `F_ij = AADT / MADW_ij` as measured.
+    Cell,
+    /// `MF_j × DF_i`.
+    Product,
+    /// The product with a working-day / weekend seasonal correction (default).
+    #[default]
+    Smoothed,
+}
+
+/// A counter's 7 x 12 factors in the chosen form.
+pub fn cell_factors(f: &crate::continuous::StationFactors, how: CellFactors) -> [[f64; 12]; 7] {
+    let product = |i: usize, j: usize| f.monthly[j] * f.day_of_week[i];
+    let mut out = [[0.0; 12]; 7];
+    for j in 0..12 {
+        for (days, range) in [(5.0, 0..5usize), (2.0, 5..7usize)] {
+            let cell: f64 = range.clone().map(|i| f.dow_by_month[i][j]).sum::<f64>() / days;
+            let prod: f64 = range.clone().map(|i| product(i, j)).sum::<f64>() / days;
+            let r = if prod > 0.0 { cell / prod } else { 1.0 };
+            for i in range {
+                out[i][j] = match how {
+                    CellFactors::Cell => f.dow_by_month[i][j],
+                    CellFactors::Product => product(i, j),
+                    CellFactors::Smoothed => product(i, j) * r,
+                };
+            }
+        }
+    }
+    out
 }
 
 impl Default for FactorParams {
@@ -55,6 +105,8 @@ impl Default for FactorParams {
             cluster_k_max: 8,
             cluster_n_min: 3,
             no_history_slope_se: NO_HISTORY_SLOPE_SE,
+            cell_factors: CellFactors::default(),
+            recreational_radius_km: 10.0,
         }
     }
 }
@@ -151,8 +203,12 @@ fn group_area(a: Area) -> GroupArea {
 
 /// Group factors for expansion from a set of counters: the cell-wise mean of their 7 x 12
 /// factors, the between-station CV per cell, and the pooled day-to-day CV.
-pub fn group_factors(stats: &[&StationStats]) -> Option<GroupFactors> {
-    let f: Vec<_> = stats.iter().filter_map(|s| s.aadt.factors()).collect();
+pub fn group_factors(stats: &[&StationStats], how: CellFactors) -> Option<GroupFactors> {
+    let f: Vec<[[f64; 12]; 7]> = stats
+        .iter()
+        .filter_map(|s| s.aadt.factors())
+        .map(|f| cell_factors(&f, how))
+        .collect();
     if f.is_empty() {
         return None;
     }
@@ -164,7 +220,7 @@ pub fn group_factors(stats: &[&StationStats]) -> Option<GroupFactors> {
     };
     for i in 0..7 {
         for j in 0..12 {
-            let v: Vec<f64> = f.iter().map(|x| x.dow_by_month[i][j]).collect();
+            let v: Vec<f64> = f.iter().map(|x| x[i][j]).collect();
             if let Some(st) = FactorStats::from_values(&v) {
                 out.dow_month[i][j] = st.mean;
                 out.dow_month_cv[i][j] = (st.n >= 2).then_some(st.cv);
@@ -179,10 +235,11 @@ pub fn group_factors(stats: &[&StationStats]) -> Option<GroupFactors> {
 }
 
 /// Heavy-vehicle group factors from classifying counters.
-fn heavy_group_factors(stats: &[&StationStats]) -> Option<GroupFactors> {
-    let f: Vec<_> = stats
+fn heavy_group_factors(stats: &[&StationStats], how: CellFactors) -> Option<GroupFactors> {
+    let f: Vec<[[f64; 12]; 7]> = stats
         .iter()
         .filter_map(|s| s.classes.as_ref()?.heavy_factors())
+        .map(|f| cell_factors(&f, how))
         .collect();
     if f.is_empty() {
         return None;
@@ -195,7 +252,7 @@ fn heavy_group_factors(stats: &[&StationStats]) -> Option<GroupFactors> {
     };
     for i in 0..7 {
         for j in 0..12 {
-            let v: Vec<f64> = f.iter().map(|x| x.dow_by_month[i][j]).collect();
+            let v: Vec<f64> = f.iter().map(|x| x[i][j]).collect();
             if let Some(st) = FactorStats::from_values(&v) {
                 out.dow_month[i][j] = st.mean;
                 out.dow_month_cv[i][j] = (st.n >= 2).then_some(st.cv);
@@ -205,8 +262,8 @@ fn heavy_group_factors(stats: &[&StationStats]) -> Option<GroupFactors> {
     Some(out)
 }
 
-/// The default assignment table: one row per class and area, plus route rows for routes that
-/// carry a recreational counter.
+/// The default assignment table: one row per class and area, plus a row per route and area
+/// that carries permanent counters, giving the group most of them are in.
 pub fn default_assignment(
     net: &Network,
     station_groups: &[(usize, RuleGroup)],
@@ -224,19 +281,30 @@ pub fn default_assignment(
             });
         }
     }
-    let mut routes: Vec<String> = station_groups
-        .iter()
-        .filter(|(_, g)| *g == RuleGroup::Recreational)
-        .filter_map(|(seg, _)| net.segments[*seg].route.clone())
-        .collect();
-    routes.sort();
-    routes.dedup();
-    for r in routes {
+    // The TMG's "same road" application: a route keeps the group of the counters on it, per
+    // area (a route that runs from town into the country changes pattern at the boundary).
+    let mut by_route: BTreeMap<(String, Area), BTreeMap<&'static str, usize>> = BTreeMap::new();
+    for (seg, g) in station_groups {
+        let s = &net.segments[*seg];
+        if let Some(r) = &s.route {
+            *by_route
+                .entry((r.clone(), s.area))
+                .or_default()
+                .entry(g.name())
+                .or_default() += 1;
+        }
+    }
+    for ((route, area), votes) in by_route {
+        let group = votes
+            .iter()
+            .max_by_key(|(name, n)| (**n, std::cmp::Reverse(**name)))
+            .map(|(name, _)| name.to_string())
+            .expect("a route with counters has votes");
         rows.push(AssignmentRow {
-            route: Some(r),
+            route: Some(route),
             functional_class: None,
-            area: None,
-            group: RuleGroup::Recreational.name().to_string(),
+            area: Some(area),
+            group,
         });
     }
     rows
@@ -308,10 +376,29 @@ pub fn run(
     for (seg, g) in &seg_groups {
         segment_group[*seg] = index_of(g.name()).expect("rule groups are named");
     }
+    let mids = net.midpoints_km();
+    let rec_sites: Vec<[f64; 2]> = seg_groups
+        .iter()
+        .filter(|(_, g)| *g == RuleGroup::Recreational)
+        .map(|(seg, _)| mids[*seg])
+        .collect();
+    let near_recreation = |i: usize| {
+        net.segments[i].area == Area::Rural
+            && rec_sites.iter().any(|p| {
+                (p[0] - mids[i][0]).hypot(p[1] - mids[i][1]) <= params.recreational_radius_km
+            })
+    };
     for (i, sg) in segment_group.iter_mut().enumerate() {
         if *sg == usize::MAX {
-            let name =
-                assigned_group(&assignment, net, i).unwrap_or(RuleGroup::ArterialUrban.name());
+            let s = &net.segments[i];
+            let route_row = assignment.iter().any(|r| {
+                r.route.is_some() && r.route == s.route && r.area.is_none_or(|a| a == s.area)
+            });
+            let name = if !route_row && near_recreation(i) {
+                RuleGroup::Recreational.name()
+            } else {
+                assigned_group(&assignment, net, i).unwrap_or(RuleGroup::ArterialUrban.name())
+            };
             *sg = index_of(name).expect("assignment groups are named");
         }
     }
@@ -361,8 +448,8 @@ pub fn run(
             members: members[g].clone(),
             factor_stations,
             source,
-            factors: group_factors(&fstats),
-            heavy_factors: heavy_group_factors(&fstats),
+            factors: group_factors(&fstats, params.cell_factors),
+            heavy_factors: heavy_group_factors(&fstats, params.cell_factors),
             summary,
             acf,
             growth,

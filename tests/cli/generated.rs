@@ -1,0 +1,221 @@
+//! Checks on generated studies whose true volumes, patterns and faults are known to the
+//! generator (`truth/` files). The generator is invented data: these tests measure the
+//! methods against a known truth, they do not compare with published numbers.
+
+use std::collections::{HashMap, HashSet};
+use std::path::Path;
+
+use chrono::{Datelike, NaiveDate};
+use roadtally::config::Config;
+use roadtally::demo::{generate, DemoParams, DemoSize};
+use roadtally::pipeline;
+
+fn read_csv(path: &Path) -> Vec<HashMap<String, String>> {
+    let mut r = csv::Reader::from_path(path).unwrap();
+    let h: Vec<String> = r.headers().unwrap().iter().map(String::from).collect();
+    r.records()
+        .map(|rec| {
+            h.iter()
+                .cloned()
+                .zip(rec.unwrap().iter().map(String::from))
+                .collect()
+        })
+        .collect()
+}
+
+fn study(seed: u64) -> (tempfile::TempDir, pipeline::Results) {
+    let dir = tempfile::tempdir().unwrap();
+    generate(&DemoParams::new(seed, DemoSize::Small), dir.path()).unwrap();
+    let config = Config::new(dir.path(), None, None, true).unwrap();
+    let results = pipeline::compute(&config).unwrap();
+    (dir, results)
+}
+
+fn median(mut v: Vec<f64>) -> f64 {
+    v.sort_by(|a, b| a.total_cmp(b));
+    let n = v.len();
+    if n % 2 == 1 {
+        v[n / 2]
+    } else {
+        (v[n / 2 - 1] + v[n / 2]) / 2.0
+    }
+}
+
+/// Issue acceptance: QC catches at least 95 % of the injected faulty station-days (rejected
+/// or flagged) and rejects under 1 % of the clean ones, over two generated years.
+#[test]
+fn qc_catches_injected_faults_and_spares_clean_days() {
+    let (mut faulty, mut caught, mut clean, mut clean_rejected) = (0, 0, 0, 0);
+    for seed in [11, 12] {
+        let (dir, r) = study(seed);
+        let faults: HashSet<(String, String, String)> =
+            read_csv(&dir.path().join("truth/faults.csv"))
+                .into_iter()
+                .map(|f| {
+                    (
+                        f["station_id"].clone(),
+                        f["direction"].clone(),
+                        f["date"].clone(),
+                    )
+                })
+                .collect();
+        let id = |s: usize| r.data.stations.stations[s].id.0.clone();
+        let found: HashSet<(String, String, String)> =
+            r.qc.findings
+                .iter()
+                .filter(|f| {
+                    f.rule != roadtally::qc::QcRule::Incomplete
+                        || f.action == roadtally::qc::QcAction::Rejected
+                })
+                .map(|f| {
+                    (
+                        id(f.station),
+                        f.direction.as_str().to_string(),
+                        f.date.to_string(),
+                    )
+                })
+                .collect();
+        faulty += faults.len();
+        caught += faults.iter().filter(|k| found.contains(*k)).count();
+        for day in r.data.counts.iter() {
+            for d in roadtally::model::Direction::ALL {
+                if day.dir(d).is_none() {
+                    continue;
+                }
+                let key = (
+                    id(day.station),
+                    d.as_str().to_string(),
+                    day.date.to_string(),
+                );
+                if faults.contains(&key) {
+                    continue;
+                }
+                // Partial first and last days of short counts are not clean full days.
+                let full = roadtally::model::views::complete_total(
+                    day,
+                    true,
+                    roadtally::model::views::Measured::Vehicles,
+                    &|x| x != d,
+                )
+                .is_some()
+                    || roadtally::model::views::complete_total(
+                        day,
+                        true,
+                        roadtally::model::views::Measured::Axles,
+                        &|x| x != d,
+                    )
+                    .is_some();
+                if !full {
+                    continue;
+                }
+                clean += 1;
+                clean_rejected += usize::from(r.qc.is_rejected(day.station, day.date, d));
+            }
+        }
+    }
+    let catch = caught as f64 / faulty as f64;
+    let false_reject = clean_rejected as f64 / clean as f64;
+    assert!(faulty > 100, "enough faults injected: {faulty}");
+    assert!(
+        catch >= 0.95,
+        "caught {caught} of {faulty} faulty station-days ({catch:.3})"
+    );
+    assert!(
+        false_reject < 0.01,
+        "rejected {clean_rejected} of {clean} clean station-days"
+    );
+}
+
+/// Issue acceptance: 48-hour counts' 95 % intervals cover the counters' AADT 92-97 % of the
+/// time in the calibration experiment (out-of-sample scale).
+#[test]
+fn calibrated_48_hour_intervals_cover_close_to_95_percent() {
+    let (_dir, r) = study(7);
+    let all48 = r
+        .calibration
+        .rows
+        .iter()
+        .find(|row| row.hours == 48 && row.class_group == "all")
+        .expect("48-hour row");
+    assert!(all48.trials >= 200, "{}", all48.trials);
+    assert!(
+        (0.92..=0.97).contains(&all48.coverage),
+        "48-hour coverage {:.3}",
+        all48.coverage
+    );
+}
+
+/// Issue acceptance: 48-hour weekday counts of the study year, expanded by the tool, have a
+/// median absolute percentage error no worse than 1.15 x that of expanding the same periods
+/// with the true day-of-week-by-month factors of each segment's own pattern.
+#[test]
+fn expansion_is_close_to_expansion_with_the_true_factors() {
+    let mut ours = Vec::new();
+    let mut oracle = Vec::new();
+    for seed in [7, 21] {
+        let (dir, r) = study(seed);
+        let truth: HashMap<String, HashMap<String, String>> =
+            read_csv(&dir.path().join("truth/segment_truth.csv"))
+                .into_iter()
+                .map(|t| (t["segment_id"].clone(), t))
+                .collect();
+        let mut factors: HashMap<(String, u32, u32), f64> = HashMap::new();
+        for f in read_csv(&dir.path().join("truth/weekday_month_factors.csv")) {
+            factors.insert(
+                (
+                    f["pattern"].clone(),
+                    f["month"].parse().unwrap(),
+                    f["weekday"].parse().unwrap(),
+                ),
+                f["factor"].parse().unwrap(),
+            );
+        }
+        let true_f = |pattern: &str, d: NaiveDate| {
+            factors[&(
+                pattern.to_string(),
+                d.month(),
+                d.weekday().number_from_monday(),
+            )]
+        };
+        for c in &r.expansion.counts {
+            let weekday = c.periods.iter().all(|p| {
+                p.parts
+                    .iter()
+                    .all(|(d, _)| d.weekday().number_from_monday() <= 5)
+            });
+            if c.year != r.year || c.periods.len() != 2 || c.measure != "vehicles" || !weekday {
+                continue;
+            }
+            let seg = &r.data.network.segments[c.segment].id.0;
+            let t = &truth[seg];
+            let true_aadt: f64 = t["true_aadt"].parse().unwrap();
+            let pattern = &t["pattern"];
+            let est_true = c
+                .periods
+                .iter()
+                .map(|p| {
+                    p.volume
+                        * p.parts
+                            .iter()
+                            .map(|(d, w)| w * true_f(pattern, *d))
+                            .sum::<f64>()
+                })
+                .sum::<f64>()
+                / c.periods.len() as f64;
+            ours.push((c.expanded.aadt - true_aadt).abs() / true_aadt);
+            oracle.push((est_true - true_aadt).abs() / true_aadt);
+        }
+    }
+    assert!(
+        ours.len() >= 20,
+        "enough 48-hour weekday counts: {}",
+        ours.len()
+    );
+    let (m_ours, m_oracle) = (median(ours), median(oracle));
+    assert!(
+        m_ours <= 1.15 * m_oracle,
+        "median APE {:.2} % vs true-factor {:.2} %",
+        100.0 * m_ours,
+        100.0 * m_oracle
+    );
+}
