@@ -4,6 +4,7 @@
 pub mod csv_out;
 pub mod table;
 pub mod tables;
+pub mod xlsx;
 
 use std::path::{Path, PathBuf};
 
