@@ -3,6 +3,8 @@
 
 pub mod csv_out;
 pub mod geojson_out;
+pub mod report;
+pub mod svg;
 pub mod table;
 pub mod tables;
 pub mod xlsx;
