@@ -29,6 +29,18 @@ const COORD_DECIMALS: i32 = 7;
 /// `id_column` names the column that holds segment ids. Rows whose id is empty or names no
 /// segment of `net` have no geometry and are left out of the map (they stay in the CSV).
 /// An error when `id_column` is not a column of the table.
+///
+/// ```
+/// use roadtally::model::Network;
+/// use roadtally::output::geojson_out::render_segments_geojson;
+/// use roadtally::output::{Column, Format, Table};
+///
+/// let table = Table::new("segment_statistics", "Segments", vec![
+///     Column::new("segment_id", "", Format::Text),
+/// ]);
+/// let bytes = render_segments_geojson(&Network::default(), &table, "segment_id").unwrap();
+/// assert_eq!(bytes, b"{\"type\":\"FeatureCollection\",\"features\":[]}\n");
+/// ```
 pub fn render_segments_geojson(
     net: &Network,
     table: &Table,

@@ -100,6 +100,19 @@ pub struct ReportData {
 }
 
 /// Renders the complete HTML5 document.
+///
+/// ```
+/// use roadtally::output::report::{render_report, ReportData};
+/// let data = ReportData {
+///     title: "Traffic statistics 2025".into(),
+///     study_year: 2025,
+///     caution: "Figures are estimates <with> stated uncertainty.".into(),
+///     ..ReportData::default()
+/// };
+/// let html = render_report(&data);
+/// assert!(html.starts_with("<!DOCTYPE html>"));
+/// assert!(html.contains("estimates &lt;with&gt; stated"));
+/// ```
 pub fn render_report(data: &ReportData) -> String {
     layout::page(data).into_string()
 }

@@ -51,6 +51,10 @@ const MONTHS: [&str; 12] = [
 const WEEKDAYS: [&str; 7] = ["Mon", "Tue", "Wed", "Thu", "Fri", "Sat", "Sun"];
 
 /// A number with thousands separators and no decimals: `12,345`.
+///
+/// ```
+/// assert_eq!(roadtally::output::svg::thousands(1_234_567.4), "1,234,567");
+/// ```
 pub fn thousands(v: f64) -> String {
     if !v.is_finite() {
         return "n/a".to_string();
@@ -82,6 +86,12 @@ fn relative_width(s: &MapSegment) -> Option<f64> {
 }
 
 /// Line opacity: 1 - half-width / AADT, clipped to [`OPACITY_MIN`, 1].
+///
+/// ```
+/// use roadtally::output::svg::interval_opacity;
+/// // 1,000 veh/day with a 95 % interval of 800 to 1,200: half-width 20 % -> opacity 0.8.
+/// assert!((interval_opacity(1000.0, 800.0, 1200.0) - 0.8).abs() < 1e-12);
+/// ```
 pub fn interval_opacity(aadt: f64, lo95: f64, hi95: f64) -> f64 {
     let half = (hi95 - lo95) / 2.0 / aadt;
     if aadt > 0.0 && half.is_finite() {

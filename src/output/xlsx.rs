@@ -72,6 +72,24 @@ pub struct CoverSheet {
 /// Sheet names come from [`Table::name`], made valid for Excel (at most 31 characters, no
 /// `[]:*?/\`) and unique. The header row reads `name (unit)` where the column has a unit.
 /// A table longer than a sheet holds is cut at the sheet's limit and the cover sheet says so.
+///
+/// ```
+/// use roadtally::output::xlsx::{render_workbook, CoverSheet};
+/// use roadtally::output::{Cell, Column, Format, Table};
+///
+/// let mut t = Table::new("segment_statistics", "Segments", vec![
+///     Column::new("segment_id", "", Format::Text),
+///     Column::new("aadt", "veh/day", Format::Integer),
+/// ]);
+/// t.push(vec!["S1".into(), Cell::Int(12_000)]);
+/// let cover = CoverSheet {
+///     title: "Traffic statistics 2025".into(),
+///     lines: vec![("Study year".into(), "2025".into())],
+///     caution: "Figures are estimates.".into(),
+/// };
+/// let bytes = render_workbook(&cover, &[&t]).unwrap();
+/// assert_eq!(&bytes[..2], b"PK"); // a zip archive
+/// ```
 pub fn render_workbook(cover: &CoverSheet, tables: &[&Table]) -> Result<Vec<u8>, OutputError> {
     render_inner(cover, tables).map_err(|e| OutputError::Format {
         path: PathBuf::from("workbook.xlsx"),
@@ -225,6 +243,12 @@ fn write_table(sheet: &mut Worksheet, table: &Table, name: &str) -> Result<(), X
 }
 
 /// The header text of a column: `name (unit)`, or `name` where there is no unit.
+///
+/// ```
+/// use roadtally::output::xlsx::header_text;
+/// assert_eq!(header_text("aadt", "veh/day"), "aadt (veh/day)");
+/// assert_eq!(header_text("segment_id", ""), "segment_id");
+/// ```
 pub fn header_text(name: &str, unit: &str) -> String {
     if unit.is_empty() {
         name.to_string()
@@ -234,6 +258,12 @@ pub fn header_text(name: &str, unit: &str) -> String {
 }
 
 /// The Excel number format of a column format; `None` for text.
+///
+/// ```
+/// use roadtally::output::{xlsx::number_format, Format};
+/// assert_eq!(number_format(Format::Decimal(3)).as_deref(), Some("0.000"));
+/// assert_eq!(number_format(Format::Share).as_deref(), Some("0.0%"));
+/// ```
 pub fn number_format(format: Format) -> Option<String> {
     match format {
         Format::Text => None,
