@@ -438,6 +438,95 @@ mod tests {
         );
     }
 
+    /// Checks that every element opened is closed in order (void elements excepted) and that
+    /// only expected elements occur: escaped input text can never open a tag.
+    fn assert_well_formed(html: &str) {
+        const VOID: [&str; 2] = ["meta", "!DOCTYPE"];
+        const ALLOWED: &[&str] = &[
+            "html",
+            "head",
+            "meta",
+            "title",
+            "style",
+            "body",
+            "header",
+            "div",
+            "strong",
+            "nav",
+            "ol",
+            "li",
+            "a",
+            "section",
+            "h1",
+            "h2",
+            "h3",
+            "p",
+            "dl",
+            "dt",
+            "dd",
+            "figure",
+            "figcaption",
+            "ul",
+            "svg",
+            "line",
+            "polyline",
+            "circle",
+            "rect",
+            "text",
+            "span",
+            "table",
+            "caption",
+            "thead",
+            "tbody",
+            "tr",
+            "th",
+            "td",
+            "footer",
+        ];
+        let mut stack: Vec<String> = Vec::new();
+        let mut rest = html;
+        while let Some(i) = rest.find('<') {
+            rest = &rest[i + 1..];
+            let end = rest.find('>').expect("tag closes");
+            let tag = &rest[..end];
+            rest = &rest[end + 1..];
+            let closing = tag.starts_with('/');
+            let name: String = tag
+                .trim_start_matches('/')
+                .chars()
+                .take_while(|c| !c.is_whitespace())
+                .collect();
+            if VOID.contains(&name.as_str()) {
+                continue;
+            }
+            assert!(
+                ALLOWED.contains(&name.as_str()),
+                "unexpected element <{name}>"
+            );
+            if closing {
+                assert_eq!(
+                    stack.pop().as_deref(),
+                    Some(name.as_str()),
+                    "closing </{name}>"
+                );
+            } else {
+                stack.push(name.clone());
+            }
+            if name == "style" && !closing {
+                // CSS is ours and holds no tags; skip to its end.
+                let j = rest.find("</style>").expect("style closes");
+                rest = &rest[j..];
+            }
+        }
+        assert!(stack.is_empty(), "unclosed {stack:?}");
+    }
+
+    #[test]
+    fn the_document_is_well_formed() {
+        assert_well_formed(&render_report(&data()));
+        assert_well_formed(&render_report(&ReportData::default()));
+    }
+
     #[test]
     fn report_shows_charts_tables_and_notes() {
         let html = render_report(&data());

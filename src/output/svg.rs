@@ -410,6 +410,7 @@ pub fn factor_panels(series: &[Series], what: &str) -> Markup {
                         line.axis x1=(c(left)) y1=(c(h - bottom)) x2=(c(w - right)) y2=(c(h - bottom)) {}
                         line.axis x1=(c(left)) y1=(c(top)) x2=(c(left)) y2=(c(h - bottom)) {}
                         line.ref x1=(c(left)) y1=(c(y(1.0))) x2=(c(w - right)) y2=(c(y(1.0))) {}
+                        text.tick x=(c(left + 3.0)) y=(c(top + 7.0)) { "factor" }
                         @for &v in &ticks {
                             text.tick x=(c(left - 3.0)) y=(c(y(v) + 3.0)) text-anchor="end" {
                                 (format!("{v:.2}"))
