@@ -260,7 +260,12 @@ pub fn network_map(segs: &[MapSegment]) -> Markup {
     let edges = log_bin_edges(&values);
     let k = edges.len().saturating_sub(1);
     // Draw low volumes first so major roads sit on top; ties keep input order.
-    let mut order: Vec<usize> = (0..segs.len()).collect();
+    let drawable = |s: &MapSegment| {
+        [s.from.0, s.from.1, s.to.0, s.to.1]
+            .iter()
+            .all(|v| v.is_finite())
+    };
+    let mut order: Vec<usize> = (0..segs.len()).filter(|&i| drawable(&segs[i])).collect();
     order.sort_by(|&a, &b| {
         let va = if segs[a].aadt.is_finite() {
             segs[a].aadt
@@ -687,6 +692,24 @@ mod tests {
         assert_relative_eq!(interval_opacity(1000.0, 800.0, 1200.0), 0.8);
         assert_relative_eq!(interval_opacity(1000.0, 0.0, 5000.0), OPACITY_MIN);
         assert_relative_eq!(interval_opacity(0.0, 0.0, 1.0), OPACITY_MIN);
+    }
+
+    #[test]
+    fn the_map_skips_segments_it_cannot_place() {
+        let seg = |from: (f64, f64), aadt: f64| MapSegment {
+            from,
+            to: (10.01, 50.01),
+            aadt,
+            lo95: aadt * 0.9,
+            hi95: aadt * 1.1,
+            basis: "continuous".into(),
+            label: "s".into(),
+        };
+        let html =
+            network_map(&[seg((10.0, 50.0), 5000.0), seg((f64::NAN, 50.0), 300.0)]).into_string();
+        assert!(!html.contains("NaN"));
+        assert_eq!(html.matches("AADT 5,000 veh/day").count(), 1);
+        assert!(!html.contains("AADT 300 veh/day"));
     }
 
     #[test]

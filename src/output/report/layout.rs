@@ -103,10 +103,10 @@ pub(super) fn page(d: &ReportData) -> Markup {
                     h2 { "Methods" }
                     @for (heading, text) in &d.methods {
                         h3 { (heading) }
-                        p { (text) }
+                        (paragraphs(text))
                     }
                     h3 { "Caution" }
-                    p { (d.caution) }
+                    (paragraphs(&d.caution))
                 }
                 footer {
                     "Produced by " (d.generated_by) " for study year " (d.study_year)
@@ -142,6 +142,15 @@ fn contents(d: &ReportData) -> Vec<(&'static str, &'static str)> {
     }
     s.push(("methods", "Methods"));
     s
+}
+
+/// Text as paragraphs, split at blank lines.
+fn paragraphs(text: &str) -> Markup {
+    html! {
+        @for para in text.split("\n\n").map(str::trim).filter(|p| !p.is_empty()) {
+            p { (para) }
+        }
+    }
 }
 
 /// The caution box near the top of the page.
@@ -245,5 +254,11 @@ mod tests {
         assert_eq!(shown_cell(&Cell::Empty, Format::Integer), "");
         assert_eq!(shown_unit(Format::Share, ""), "%");
         assert_eq!(shown_unit(Format::Integer, "veh/day"), "veh/day");
+    }
+
+    #[test]
+    fn blank_lines_split_paragraphs() {
+        let html = paragraphs("One.\n\nTwo <b>.\n\n\n").into_string();
+        assert_eq!(html, "<p>One.</p><p>Two &lt;b&gt;.</p>");
     }
 }
