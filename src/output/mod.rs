@@ -2,8 +2,12 @@
 //! the output folder and renamed into place, so a failed run never leaves half a table.
 
 pub mod csv_out;
+pub mod geojson_out;
+pub mod report;
+pub mod svg;
 pub mod table;
 pub mod tables;
+pub mod xlsx;
 
 use std::path::{Path, PathBuf};
 
