@@ -65,6 +65,10 @@ pub struct ExpansionParams {
     pub calibration_hours: Vec<u32>,
     /// Start days tried per permanent counter and count length. Default 40.
     pub calibration_starts: usize,
+    /// A short count moves from its table group to the group whose weekday hourly profile it
+    /// fits best when that fit's chi-square distance is below this share of its own group's.
+    /// 0 turns profile assignment off. Default 0.5 (project choice).
+    pub profile_switch_ratio: f64,
 }
 
 impl Default for ExpansionParams {
@@ -76,6 +80,7 @@ impl Default for ExpansionParams {
             growth_cv_per_year: 0.03,
             calibration_hours: vec![24, 48, 72],
             calibration_starts: 40,
+            profile_switch_ratio: 0.5,
         }
     }
 }

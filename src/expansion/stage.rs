@@ -39,6 +39,10 @@ pub struct ExpandedCount {
     pub measure: &'static str,
     /// Classified.
     pub classified: bool,
+    /// Factor group used.
+    pub group: usize,
+    /// How the group was chosen: `table` or `hourly_profile`.
+    pub assigned_by: &'static str,
     /// The expansion (log sd already scaled by the calibration).
     pub expanded: Expanded,
     /// The 24-hour periods that were expanded.
@@ -89,7 +93,6 @@ pub fn run(
         }
         let seg = station.segment;
         let oneway = data.network.segments[seg].oneway;
-        let group = &factors.groups[factors.segment_group[seg]];
         let mut by_year: BTreeMap<i32, Vec<&crate::model::DayCounts>> = BTreeMap::new();
         for d in data.counts.days[s].values() {
             by_year.entry(d.date.year()).or_default().push(d);
@@ -104,15 +107,22 @@ pub fn run(
                 measure = Measured::Axles;
             }
             let mut prev: Option<NaiveDate> = None;
-            let mut heavy_days = (0.0, 0.0, 0.0, 0.0); // (expanded heavy, expanded total, su, cu)
+            let mut profile = [0.0f64; 24];
+            let mut profile_hours = [0usize; 24];
+            let mut class_days: Vec<(NaiveDate, [u64; 13])> = Vec::new();
             let mut classified = false;
             for d in &days {
                 let excl = |x: Direction| filter.excluded(s, d.date, x);
                 let mut follows = prev.is_some_and(|p| p.succ_opt() == Some(d.date));
                 let mut complete = true;
-                for h in d.day_hours() {
+                let weekday = d.date.weekday().num_days_from_monday() < 5;
+                for (k, h) in d.day_hours().enumerate() {
                     match two_way_hour(d, h, oneway, measure, &excl) {
                         Some((v, _, _)) => {
+                            if weekday && k < 24 && d.hours_in_day() == 24 {
+                                profile[k] += v as f64;
+                                profile_hours[k] += 1;
+                            }
                             hours.push(CountHour {
                                 date: d.date,
                                 volume: v as f64,
@@ -127,20 +137,52 @@ pub fn run(
                     }
                 }
                 prev = complete.then_some(d.date);
-                if let (Some(c), Some(gf)) =
-                    (complete_classes(d, oneway, &excl), group.factors.as_ref())
-                {
+                if let Some(c) = complete_classes(d, oneway, &excl) {
                     classified = true;
-                    let total: f64 = c.iter().map(|&x| x as f64).sum();
-                    let heavy: f64 = c[3..].iter().map(|&x| x as f64).sum();
-                    let su: f64 = c[3..7].iter().map(|&x| x as f64).sum();
-                    let hf = group.heavy_factors.as_ref().unwrap_or(gf);
-                    heavy_days.0 += heavy * hf.factor(d.date);
-                    heavy_days.1 += total * gf.factor(d.date);
-                    heavy_days.2 += su;
-                    heavy_days.3 += heavy - su;
+                    class_days.push((d.date, c));
                 }
             }
+            // Assignment by the count's own weekday hourly profile (NCHRP Research Report
+            // 1124 assigns short counts to groups by their temporal characteristics): the
+            // table's group is kept unless another group's profile fits clearly better.
+            let mut group_index = factors.segment_group[seg];
+            let mut assigned_by = "table";
+            if params.profile_switch_ratio > 0.0 && profile_hours.iter().all(|&n| n > 0) {
+                let per_hour: Vec<f64> = (0..24)
+                    .map(|k| profile[k] / profile_hours[k] as f64)
+                    .collect();
+                let total: f64 = per_hour.iter().sum();
+                if total > 0.0 {
+                    let shares: Vec<f64> = per_hour.iter().map(|v| v / total).collect();
+                    let dist = |g: &[f64; 24]| -> f64 {
+                        shares
+                            .iter()
+                            .zip(g)
+                            .map(|(p, q)| (p - q).powi(2) / q.max(1e-4))
+                            .sum()
+                    };
+                    let own = factors.groups[group_index]
+                        .weekday_profile
+                        .as_ref()
+                        .map(dist);
+                    let best = factors
+                        .groups
+                        .iter()
+                        .enumerate()
+                        .filter(|(_, g)| {
+                            g.factors.is_some() && g.source != "borrowed from all counters"
+                        })
+                        .filter_map(|(i, g)| g.weekday_profile.as_ref().map(|p| (i, dist(p))))
+                        .min_by(|a, b| a.1.total_cmp(&b.1));
+                    if let (Some(own), Some((bi, bd))) = (own, best) {
+                        if bi != group_index && bd < params.profile_switch_ratio * own {
+                            group_index = bi;
+                            assigned_by = "hourly_profile";
+                        }
+                    }
+                }
+            }
+            let group = &factors.groups[group_index];
             let first = days.first().map(|d| d.date).expect("a year has days");
             let last = days.last().map(|d| d.date).expect("a year has days");
             let Some(gf) = group.factors.as_ref() else {
@@ -198,6 +240,8 @@ pub fn run(
                             "vehicles"
                         },
                         classified,
+                        group: group_index,
+                        assigned_by,
                         expanded: e,
                         periods,
                         heavy_share: hs,

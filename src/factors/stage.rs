@@ -48,6 +48,9 @@ pub struct FactorParams {
     /// Which day-of-week-by-month factors expand short counts (see [`CellFactors`]).
     /// Default `smoothed`.
     pub cell_factors: CellFactors,
+    /// Fewest counters whose factors a group averages: a smaller group is pooled with its
+    /// neighbouring groups (same area first). Default 2 (a single counter gives no spread).
+    pub min_group_counters: usize,
     /// Rural segments within this distance (km, straight line between midpoints) of a
     /// recreational counter, and not sent elsewhere by a route row, join the recreational
     /// group: recreational traffic belongs to places (lakes, coasts, mountains), and the TMG
@@ -107,6 +110,7 @@ impl Default for FactorParams {
             no_history_slope_se: NO_HISTORY_SLOPE_SE,
             cell_factors: CellFactors::default(),
             recreational_radius_km: 10.0,
+            min_group_counters: 2,
         }
     }
 }
@@ -157,6 +161,8 @@ pub struct Group {
     pub single_unit_share: Option<FactorStats>,
     /// Combination share over classifying counters.
     pub combination_share: Option<FactorStats>,
+    /// Mean weekday hourly distribution (shares of the day per clock hour) of its counters.
+    pub weekday_profile: Option<[f64; 24]>,
 }
 
 /// What the stage produced.
@@ -420,16 +426,32 @@ pub fn run(
     let mut groups = Vec::new();
     for (g, name) in names.iter().enumerate() {
         let own: Vec<usize> = members[g].iter().copied().filter(usable).collect();
-        let (factor_stations, source) = if !own.is_empty() {
-            (own, "own".to_string())
-        } else if let Some((other, st)) = sibling(name).and_then(|o| {
-            let oi = index_of(o)?;
-            let st: Vec<usize> = members[oi].iter().copied().filter(usable).collect();
-            (!st.is_empty()).then_some((o, st))
-        }) {
-            (st, format!("borrowed from {other}"))
+        // A group with too few counters of its own is pooled with its neighbours (in
+        // [`borrow_order`]) until it has `min_group_counters`; with none anywhere near, with
+        // every counter.
+        let mut factor_stations = own.clone();
+        let mut pooled: Vec<&str> = Vec::new();
+        for o in borrow_order(name) {
+            if factor_stations.len() >= params.min_group_counters {
+                break;
+            }
+            if let Some(oi) = index_of(o) {
+                let st: Vec<usize> = members[oi].iter().copied().filter(usable).collect();
+                if !st.is_empty() {
+                    factor_stations.extend(st);
+                    pooled.push(o);
+                }
+            }
+        }
+        let source = if factor_stations.is_empty() {
+            factor_stations = all_usable.clone();
+            "borrowed from all counters".to_string()
+        } else if pooled.is_empty() {
+            "own".to_string()
+        } else if own.is_empty() {
+            format!("borrowed from {}", pooled.join(" + "))
         } else {
-            (all_usable.clone(), "borrowed from all counters".to_string())
+            format!("own pooled with {}", pooled.join(" + "))
         };
         let fstats: Vec<&StationStats> = factor_stations.iter().map(|s| by_station[s]).collect();
         let profiles: Vec<&FactorProfile> = counter_groups
@@ -480,6 +502,7 @@ pub fn run(
                     .iter()
                     .filter_map(|s| s.classes.as_ref()?.combination_share),
             ),
+            weekday_profile: mean_profile(&fstats),
         });
     }
     // 4. Clustering check.
@@ -545,25 +568,41 @@ pub fn station_acf(s: &StationStats) -> Option<f64> {
     crate::continuous::axle_correction_factor(veh, axles)
 }
 
-/// The same road type in the other area, for borrowing factors.
-fn sibling(name: &str) -> Option<&'static str> {
-    let pairs = [
-        (RuleGroup::FreewayUrban, RuleGroup::FreewayRural),
-        (RuleGroup::ArterialUrban, RuleGroup::ArterialRural),
-        (
-            RuleGroup::CollectorLocalUrban,
-            RuleGroup::CollectorLocalRural,
-        ),
-    ];
-    pairs.iter().find_map(|(a, b)| {
-        if a.name() == name {
-            Some(b.name())
-        } else if b.name() == name {
-            Some(a.name())
-        } else {
-            None
+/// The mean weekday hourly distribution of a set of counters.
+fn mean_profile(stats: &[&StationStats]) -> Option<[f64; 24]> {
+    let p: Vec<&[f64; 24]> = stats
+        .iter()
+        .filter_map(|s| s.distribution.as_ref()?.shares[0].as_ref())
+        .collect();
+    if p.is_empty() {
+        return None;
+    }
+    let mut out = [0.0; 24];
+    for q in &p {
+        for (o, v) in out.iter_mut().zip(q.iter()) {
+            *o += v / p.len() as f64;
         }
-    })
+    }
+    Some(out)
+}
+
+/// Where a group without a usable counter borrows its factors, in order: the neighbouring
+/// road types of the same area first (the urban/rural split separates commuter from intercity
+/// patterns more than road type does), then the same road type in the other area.
+fn borrow_order(name: &str) -> Vec<&'static str> {
+    use RuleGroup::*;
+    let urban = [FreewayUrban, ArterialUrban, CollectorLocalUrban];
+    let rural = [FreewayRural, ArterialRural, CollectorLocalRural];
+    for (same, other) in [(urban, rural), (rural, urban)] {
+        if let Some(k) = same.iter().position(|g| g.name() == name) {
+            let mut order: Vec<usize> = (0..3).filter(|&j| j != k).collect();
+            order.sort_by_key(|&j| (j as i64 - k as i64).abs());
+            let mut out: Vec<&'static str> = order.iter().map(|&j| same[j].name()).collect();
+            out.push(other[k].name());
+            return out;
+        }
+    }
+    Vec::new()
 }
 
 /// Growth observations: published AADT of earlier years (history.csv) and this year's
