@@ -16,12 +16,20 @@
 //!   (class 9 flexible about 1.0–1.5, references §5.3; WSDOT single units 0.40 and
 //!   tractor-semitrailers 1.00, from memory, low-moderate confidence). **Replace them with
 //!   your agency's WIM-derived values.**
-//! - **Load equivalency** (AASHTO 1993 App. D, equations from memory, references §5.2):
-//!   flexible `log10(W_tx/W_t18) = 4.79 log10(18+1) − 4.79 log10(Lx+L2) + 4.33 log10(L2)
-//!   + G_t/β_x − G_t/β_18`, `G_t = log10((4.2 − p_t)/(4.2 − 1.5))`,
-//!   `β_x = 0.40 + 0.081 (Lx+L2)^3.23 / ((SN+1)^5.19 · L2^3.23)`; rigid `4.62`, `3.28`,
-//!   `G_t = log10((4.5 − p_t)/(4.5 − 1.5))`, `β_x = 1.00 + 3.63 (Lx+L2)^5.20 / ((D+1)^8.46 ·
-//!   L2^3.52)`; `LEF = W_t18 / W_tx`; `L2` = 1 single, 2 tandem, 3 tridem.
+//! - **Load equivalency** (AASHTO 1993 App. D, equations from memory, references §5.2),
+//!   `LEF = W_t18 / W_tx`, `Lx` the axle load in kips, `L2` = 1 single, 2 tandem, 3 tridem:
+//!
+//!   ```text
+//!   flexible: log10(W_tx/W_t18) = 4.79 log10(18+1) − 4.79 log10(Lx+L2) + 4.33 log10(L2)
+//!                                 + G_t/β_x − G_t/β_18
+//!             G_t = log10((4.2 − p_t)/(4.2 − 1.5))
+//!             β_x = 0.40 + 0.081 (Lx+L2)^3.23 / ((SN+1)^5.19 · L2^3.23)
+//!   rigid:    log10(W_tx/W_t18) = 4.62 log10(18+1) − 4.62 log10(Lx+L2) + 3.28 log10(L2)
+//!                                 + G_t/β_x − G_t/β_18
+//!             G_t = log10((4.5 − p_t)/(4.5 − 1.5))
+//!             β_x = 1.00 + 3.63 (Lx+L2)^5.20 / ((D+1)^8.46 · L2^3.52)
+//!   (β_18 is β_x at Lx = 18, L2 = 1)
+//!   ```
 //! - **HCM defaults** (PHF, heavy-vehicle share) by facility and area type, from memory of
 //!   the HCM 6th ed. (2016) and HCM 2010 (references §3.2): basic freeway / multilane
 //!   PHF 0.94 urban, 0.88 rural, heavy vehicles 5 % urban, 12 % rural; other roads

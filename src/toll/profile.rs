@@ -193,9 +193,8 @@ impl FactorProfile {
         if !(self.aadt > 0.0 && self.aadt.is_finite()) {
             return bad("aadt", self.aadt, "a finite volume > 0");
         }
-        if !(self.aadt_lo95 > 0.0 && self.aadt_lo95 <= self.aadt && self.aadt <= self.aadt_hi95)
-            || !self.aadt_hi95.is_finite()
-        {
+        let a = (self.aadt_lo95, self.aadt, self.aadt_hi95);
+        if !(a.0 > 0.0 && a.0 <= a.1 && a.1 <= a.2 && a.2.is_finite()) {
             return bad("aadt_lo95", self.aadt_lo95, "0 < lo <= aadt <= hi, finite");
         }
         let h = (
