@@ -38,9 +38,9 @@ pub use pavement::{
 };
 pub use tables::{
     lef_flexible, lef_rigid, load_hcm_defaults, load_lane_distribution, load_truck_factors,
-    write_hcm_defaults, write_lane_distribution, write_truck_factors, AxleType, Facility,
-    HcmDefault, HcmDefaults, LaneDistribution, LaneDistributionRow, LoadEquivalency,
-    TruckFactorRow,
+    truck_factor_flexible, truck_factor_rigid, write_hcm_defaults, write_lane_distribution,
+    write_truck_factors, AxleType, Facility, HcmDefault, HcmDefaults, LaneDistribution,
+    LaneDistributionRow, LoadEquivalency, TruckFactorRow,
 };
 
 use std::path::PathBuf;
