@@ -193,6 +193,18 @@ pub fn run(
                 ));
                 continue;
             };
+            // Heavy volumes expanded with the heavy-vehicle factors, totals with the group's.
+            let hf = group.heavy_factors.as_ref().unwrap_or(gf);
+            let mut heavy_days = (0.0f64, 0.0f64, 0.0f64, 0.0f64); // heavy, total, su, cu
+            for (date, c) in &class_days {
+                let total: f64 = c.iter().map(|&x| x as f64).sum();
+                let heavy: f64 = c[3..].iter().map(|&x| x as f64).sum();
+                let su: f64 = c[3..7].iter().map(|&x| x as f64).sum();
+                heavy_days.0 += heavy * hf.factor(*date);
+                heavy_days.1 += total * gf.factor(*date);
+                heavy_days.2 += su;
+                heavy_days.3 += heavy - su;
+            }
             let measure_kind = match measure {
                 Measured::Vehicles => Measure::Vehicles,
                 Measured::Axles => match group.acf.or_else(|| network_acf(factors)) {
