@@ -152,7 +152,7 @@ fn network_stats(
     factors
         .groups
         .iter()
-        .filter_map(|g| pick(g))
+        .filter_map(pick)
         .max_by_key(|s| s.n)
         .copied()
 }

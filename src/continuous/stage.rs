@@ -4,7 +4,7 @@
 //! For every `continuous` station, the days of the study year that quality control kept are
 //! turned into two-way day volumes (complete local days only: TMG practice, partial days are
 //! discarded), per-direction day volumes, two-way clock hours and, at classifying stations,
-//! daily class totals; then [`compute_aadt`], [`design_hour`], [`hourly_distribution`] and
+//! daily class totals; then [`compute_aadt`], [`design_hour()`], [`hourly_distribution`] and
 //! [`class_aadt`] do the maths.
 //!
 //! The uncertainty of a counter's AADT combines the sampling error of the 84 cell means

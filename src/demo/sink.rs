@@ -13,7 +13,7 @@ use super::DemoError;
 /// The byte stream under the CSV writer: plain or gzip.
 pub(crate) enum Stream {
     Plain(BufWriter<File>),
-    Gzip(GzEncoder<BufWriter<File>>),
+    Gzip(Box<GzEncoder<BufWriter<File>>>),
 }
 
 impl Write for Stream {
@@ -52,7 +52,7 @@ impl CsvSink {
         let gzip = path.extension().is_some_and(|e| e == "gz");
         // GzEncoder::new writes no file name and a zero mtime, so output stays reproducible.
         let stream = if gzip {
-            Stream::Gzip(GzEncoder::new(buf, Compression::new(4)))
+            Stream::Gzip(Box::new(GzEncoder::new(buf, Compression::new(4))))
         } else {
             Stream::Plain(buf)
         };

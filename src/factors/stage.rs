@@ -80,6 +80,7 @@ pub enum CellFactors {
 }
 
 /// A counter's 7 x 12 factors in the chosen form.
+#[allow(clippy::needless_range_loop)] // indices i (weekday) and j (month) mirror the formula
 pub fn cell_factors(f: &crate::continuous::StationFactors, how: CellFactors) -> [[f64; 12]; 7] {
     let product = |i: usize, j: usize| f.monthly[j] * f.day_of_week[i];
     let mut out = [[0.0; 12]; 7];

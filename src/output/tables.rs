@@ -541,7 +541,8 @@ pub fn cross_validation(data: &StudyData, sp: &SpatialOutput) -> Table {
             col("coverage95", "share", Format::Share),
         ],
     );
-    let estimators: [(&str, fn(&crate::spatial::stage::CvPoint) -> Interval); 3] = [
+    type Pick = fn(&crate::spatial::stage::CvPoint) -> Interval;
+    let estimators: [(&str, Pick); 3] = [
         ("kriging_external_drift", |p| p.kriged),
         ("drift_regression", |p| p.regression),
         ("class_area_mean", |p| p.class_mean),

@@ -764,7 +764,9 @@ fn run_rejects_faulty_direction_days_and_counts_outcomes() {
     assert!(!out.is_rejected(0, fault, Direction::Rev));
     assert!(out.is_rejected(1, fault, Direction::Both));
     let first_axle_day = date0() + chrono::Duration::days(100);
-    assert!(out.is_rejected(2, first_axle_day, Direction::Fwd));
+    // The partial first day of a short count is flagged, not rejected: its hours still enter
+    // the count's 24-hour periods.
+    assert!(!out.is_rejected(2, first_axle_day, Direction::Fwd));
     assert!(!out.is_rejected(
         2,
         first_axle_day + chrono::Duration::days(1),
@@ -776,6 +778,7 @@ fn run_rejects_faulty_direction_days_and_counts_outcomes() {
         .find(|f| f.station == 2)
         .expect("the partial axle day");
     assert_eq!(axle_finding.rule, QcRule::Incomplete);
+    assert_eq!(axle_finding.action, QcAction::Flagged);
     assert!(
         axle_finding.detail.contains("axle"),
         "{}",

@@ -417,7 +417,7 @@ pub fn run(net: &Network, obs: &[Observation], params: &SpatialParams) -> Spatia
         drift: f_obs.iter().map(|f| vec![*f]).collect(),
         meas_var: meas.clone(),
     };
-    let Ok(kriger) = Kriger::new(data, kparams.clone()) else {
+    let Ok(kriger) = Kriger::new(data, kparams) else {
         out.model_note
             .push_str("; kriging system could not be built");
         return out;
@@ -492,7 +492,7 @@ fn cv_fold(
     let f_j = drift_of(net, &fit, target.segment, y_by_seg, routes, sf, excl);
     // The observed value carries its own measurement error: judge coverage against the
     // prediction variance plus that error.
-    let kriged = Kriger::new(data, kparams.clone())
+    let kriged = Kriger::new(data, *kparams)
         .ok()
         .and_then(|k| k.predict(mids[target.segment], &[f_j]).ok())
         .map(|p| Interval::from_log(p.value, p.variance_with_nugget + target.meas_var))
