@@ -30,6 +30,8 @@ pub struct Settings {
     pub expansion: ExpansionParams,
     /// Estimation of uncounted segments.
     pub spatial: SpatialParams,
+    /// Toll rates per vehicle-km and group, for the payment comparison.
+    pub toll: crate::toll::reconcile::TollRates,
 }
 
 impl Settings {

@@ -141,6 +141,8 @@ pub struct Results {
     pub spatial: crate::spatial::stage::SpatialOutput,
     /// Per-segment rows.
     pub segments: Vec<crate::segments::SegmentRow>,
+    /// Toll reconciliation, when the study has a toll.csv.
+    pub toll: Option<Vec<crate::toll::stage::TollResult>>,
 }
 
 /// Runs every stage and keeps their outputs (no files written).
@@ -173,6 +175,10 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
     let obs = crate::segments::observations(&data, &continuous, &expansion);
     let spatial = crate::spatial::stage::run(&data.network, &obs, &settings.spatial);
     let segments = crate::segments::assemble(&data, &continuous, &factors, &expansion, &spatial);
+    let toll = data
+        .toll
+        .as_ref()
+        .map(|t| crate::toll::stage::run(&data, t, &segments, &continuous, &factors));
     Ok(Results {
         data,
         year,
@@ -183,6 +189,7 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
         expansion,
         spatial,
         segments,
+        toll,
     })
 }
 
@@ -253,6 +260,45 @@ pub fn run(config: &Config) -> Result<RunReport, PipelineError> {
         tables::network_findings(&r.qc),
         tables::rejected_rows(&data.rejected),
     ];
+    let mut all = all.to_vec();
+    if let Some(toll) = &r.toll {
+        all.push(tables::toll_reconciliation(
+            data,
+            toll,
+            &config.settings.toll,
+        ));
+        let ok: Vec<crate::toll::reconcile::ReconciliationRow> =
+            toll.iter().filter_map(|t| t.result.clone().ok()).collect();
+        let months = crate::toll::reconcile::summarise_by_month(&ok);
+        let keys: Vec<(String, String)> = months
+            .iter()
+            .map(|m| {
+                (
+                    format!("{}-{:02}", m.year, m.month),
+                    m.group.as_str().to_string(),
+                )
+            })
+            .collect();
+        let totals: Vec<_> = months.iter().map(|m| m.totals.clone()).collect();
+        all.push(tables::toll_summary(
+            "toll_by_month",
+            "Toll reconciliation per month",
+            &keys,
+            &totals,
+        ));
+        let segs = crate::toll::reconcile::summarise_by_segment(&ok);
+        let keys: Vec<(String, String)> = segs
+            .iter()
+            .map(|m| (m.segment.0.clone(), m.group.as_str().to_string()))
+            .collect();
+        let totals: Vec<_> = segs.iter().map(|m| m.totals.clone()).collect();
+        all.push(tables::toll_summary(
+            "toll_by_segment",
+            "Toll reconciliation per segment",
+            &keys,
+            &totals,
+        ));
+    }
     output::ensure_dir(&out)?;
     let mut written = Vec::new();
     for t in &all {

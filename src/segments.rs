@@ -157,6 +157,86 @@ fn network_stats(
         .copied()
 }
 
+/// Class shares for segments without a classified count of their own: the nearest classified
+/// segment on the same route within 30 km (the "same road" principle), else the group. Either
+/// way the interval reflects how much heavy shares differ between segments: the standard
+/// deviation of ln(heavy share) over the study's classified segments (at least 0.25; 0.5 when
+/// fewer than three are classified).
+fn borrow_shares(data: &StudyData, rows: &mut [SegmentRow]) {
+    let measured = |r: &SegmentRow| {
+        r.heavy
+            .as_ref()
+            .is_some_and(|h| h.source == "counter" || h.source == "short_count")
+    };
+    let logs: Vec<f64> = rows
+        .iter()
+        .filter(|r| measured(r))
+        .filter_map(|r| r.heavy.as_ref().map(|h| h.value))
+        .filter(|v| *v > 0.0)
+        .map(f64::ln)
+        .collect();
+    let s_b = if logs.len() >= 3 {
+        let m = logs.iter().sum::<f64>() / logs.len() as f64;
+        (logs.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (logs.len() - 1) as f64)
+            .sqrt()
+            .max(0.25)
+    } else {
+        0.5
+    };
+    let classified: Vec<bool> = rows.iter().map(measured).collect();
+    let routes =
+        crate::spatial::network_drift::RouteNeighbours::build(&data.network, &classified, 30.0);
+    let widen = |v: f64, source: String| Sourced {
+        value: v,
+        lo95: v * (-Z95 * s_b).exp(),
+        hi95: (v * (Z95 * s_b).exp()).min(1.0),
+        source,
+    };
+    let snapshot: Vec<(Option<Sourced>, Option<Sourced>, Option<Sourced>)> = rows
+        .iter()
+        .map(|r| {
+            (
+                r.heavy.clone(),
+                r.single_unit.clone(),
+                r.combination.clone(),
+            )
+        })
+        .collect();
+    for (i, r) in rows.iter_mut().enumerate() {
+        if classified[i] {
+            continue;
+        }
+        let nearest = routes.lists[i]
+            .iter()
+            .min_by(|a, b| a.1.total_cmp(&b.1))
+            .map(|(k, _)| *k);
+        let (h, su, cu, source) = match nearest {
+            Some(k) => (
+                snapshot[k].0.clone(),
+                snapshot[k].1.clone(),
+                snapshot[k].2.clone(),
+                format!("route:{}", data.network.segments[k].id),
+            ),
+            None => (
+                r.heavy.clone(),
+                r.single_unit.clone(),
+                r.combination.clone(),
+                String::new(),
+            ),
+        };
+        let src = |x: &Option<Sourced>| {
+            if source.is_empty() {
+                x.as_ref().map_or(String::new(), |x| x.source.clone())
+            } else {
+                source.clone()
+            }
+        };
+        r.heavy = h.as_ref().map(|x| widen(x.value, src(&h)));
+        r.single_unit = su.as_ref().map(|x| widen(x.value, src(&su)));
+        r.combination = cu.as_ref().map(|x| widen(x.value, src(&cu)));
+    }
+}
+
 /// Builds every segment's row.
 pub fn assemble(
     data: &StudyData,
@@ -173,7 +253,7 @@ pub fn assemble(
             counter_of[seg] = Some(i);
         }
     }
-    (0..net.segments.len())
+    let mut rows = (0..net.segments.len())
         .map(|seg| {
             let group = &factors.groups[factors.segment_group[seg]];
             let gname = format!("group:{}", group.name);
@@ -309,5 +389,7 @@ pub fn assemble(
             }
             row
         })
-        .collect()
+        .collect::<Vec<_>>();
+    borrow_shares(data, &mut rows);
+    rows
 }

@@ -126,7 +126,8 @@ pub(crate) fn plan_stations(
         continuous.push(ContinuousStation {
             id: format!("CC{:03}", i + 1),
             segment: seg,
-            classified: i % scale.classified_every == 1,
+            // The counter on the tolled segment classifies, as a toll-audit site would.
+            classified: i == 0 || i % scale.classified_every == 1,
             minutes: if i == 3 { 15 } else { 60 },
         });
     }

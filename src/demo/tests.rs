@@ -337,7 +337,7 @@ fn stations_and_rows_match_the_summary_and_the_size() {
         .filter(|r| !r["class_1"].is_empty())
         .map(|r| r["station_id"].as_str())
         .collect();
-    assert!((2..=3).contains(&classified.len()));
+    assert!((2..=4).contains(&classified.len()));
     let bytes: u64 = all_files(study())
         .iter()
         .map(|f| f.metadata().unwrap().len())

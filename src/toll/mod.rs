@@ -31,6 +31,7 @@
 
 pub mod profile;
 pub mod reconcile;
+pub mod stage;
 
 pub use crate::input::VehicleGroup;
 pub use profile::{

@@ -257,7 +257,7 @@ pub fn summarise_by_segment(rows: &[ReconciliationRow]) -> Vec<SegmentSummary> {
 }
 
 /// Toll rates per vehicle-km by vehicle group (`study.toml`); a missing key is `None`.
-#[derive(Debug, Clone, Default, PartialEq, Deserialize)]
+#[derive(Debug, Clone, Default, PartialEq, Deserialize, serde::Serialize)]
 #[serde(default, deny_unknown_fields)]
 pub struct TollRates {
     /// Rate for light vehicles, currency per vehicle-km.

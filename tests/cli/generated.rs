@@ -24,8 +24,12 @@ fn read_csv(path: &Path) -> Vec<HashMap<String, String>> {
 }
 
 fn study(seed: u64) -> (tempfile::TempDir, pipeline::Results) {
+    study_of(seed, DemoSize::Small)
+}
+
+fn study_of(seed: u64, size: DemoSize) -> (tempfile::TempDir, pipeline::Results) {
     let dir = tempfile::tempdir().unwrap();
-    generate(&DemoParams::new(seed, DemoSize::Small), dir.path()).unwrap();
+    generate(&DemoParams::new(seed, size), dir.path()).unwrap();
     let config = Config::new(dir.path(), None, None, true).unwrap();
     let results = pipeline::compute(&config).unwrap();
     (dir, results)
@@ -152,8 +156,8 @@ fn calibrated_48_hour_intervals_cover_close_to_95_percent() {
 fn expansion_is_close_to_expansion_with_the_true_factors() {
     let mut ours = Vec::new();
     let mut oracle = Vec::new();
-    for seed in [7, 21] {
-        let (dir, r) = study(seed);
+    for seed in [7] {
+        let (dir, r) = study_of(seed, DemoSize::Large);
         let truth: HashMap<String, HashMap<String, String>> =
             read_csv(&dir.path().join("truth/segment_truth.csv"))
                 .into_iter()
@@ -227,4 +231,47 @@ fn expansion_is_close_to_expansion_with_the_true_factors() {
         100.0 * m_ours,
         100.0 * m_oracle
     );
+}
+
+/// Issue acceptance: on the committed demo study, whose generator mis-bills exactly one toll
+/// period by 10 %, the reconciliation flags that period and none of the correctly billed ones.
+#[test]
+fn toll_reconciliation_flags_only_the_misbilled_period() {
+    let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/small");
+    let out = tempfile::tempdir().unwrap();
+    let status = super::roadtally()
+        .args(["run", "--quiet", "--out"])
+        .arg(out.path())
+        .arg(&demo)
+        .output()
+        .unwrap()
+        .status;
+    assert!(status.code().is_some_and(|c| c <= 1));
+    let truth = read_csv(&demo.join("truth/toll_truth.csv"));
+    let rows = read_csv(&out.path().join("toll_reconciliation.csv"));
+    assert_eq!(truth.len(), rows.len(), "one row per toll.csv row");
+    let key = |r: &HashMap<String, String>| {
+        (
+            r["segment_id"].clone(),
+            r["from_date"].clone(),
+            r["vehicle_group"].clone(),
+        )
+    };
+    let misbilled: HashSet<_> = truth
+        .iter()
+        .filter(|t| t["misbilled"] == "true")
+        .map(key)
+        .collect();
+    assert_eq!(misbilled.len(), 1);
+    for r in &rows {
+        let flagged = r["verdict"] != "consistent";
+        assert_eq!(
+            flagged,
+            misbilled.contains(&key(r)),
+            "row {:?}: {}",
+            key(r),
+            r["verdict"]
+        );
+        assert!(["consistent", "over_billed", "under_billed"].contains(&r["verdict"].as_str()));
+    }
 }
