@@ -32,6 +32,8 @@ pub struct Settings {
     pub spatial: SpatialParams,
     /// Toll rates per vehicle-km and group, for the payment comparison.
     pub toll: crate::toll::reconcile::TollRates,
+    /// Design period and pavement type for the design inputs.
+    pub design: crate::design::stage::DesignParams,
 }
 
 impl Settings {

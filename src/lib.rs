@@ -29,3 +29,4 @@ pub mod qc;
 pub mod segments;
 pub mod spatial;
 pub mod toll;
+pub mod totals;

@@ -143,6 +143,10 @@ pub struct Results {
     pub segments: Vec<crate::segments::SegmentRow>,
     /// Toll reconciliation, when the study has a toll.csv.
     pub toll: Option<Vec<crate::toll::stage::TollResult>>,
+    /// Design inputs per segment.
+    pub design: Vec<crate::design::stage::DesignRow>,
+    /// Network totals.
+    pub totals: Vec<crate::totals::Total>,
 }
 
 /// Runs every stage and keeps their outputs (no files written).
@@ -179,6 +183,9 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
         .toll
         .as_ref()
         .map(|t| crate::toll::stage::run(&data, t, &segments, &continuous, &factors));
+    let tables = input::read_design_tables(&data.root)?;
+    let design = crate::design::stage::run(&data, &segments, &factors, &tables, &settings.design);
+    let totals = crate::totals::network_totals(&data, &segments);
     Ok(Results {
         data,
         year,
@@ -190,6 +197,8 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
         spatial,
         segments,
         toll,
+        design,
+        totals,
     })
 }
 
@@ -299,6 +308,17 @@ pub fn run(config: &Config) -> Result<RunReport, PipelineError> {
             &totals,
         ));
     }
+    let days = if chrono::NaiveDate::from_ymd_opt(r.year, 2, 29).is_some() {
+        366.0
+    } else {
+        365.0
+    };
+    all.push(output::publish::design_table(
+        data,
+        &r.design,
+        config.settings.design.design_years,
+    ));
+    all.push(output::publish::totals_table(&r.totals, days));
     output::ensure_dir(&out)?;
     let mut written = Vec::new();
     for t in &all {
@@ -310,6 +330,31 @@ pub fn run(config: &Config) -> Result<RunReport, PipelineError> {
         &fdir,
         &tables::group_assignment(&r.factors),
     )?);
+    let by_name: std::collections::BTreeMap<String, output::Table> =
+        all.iter().map(|t| (t.name.clone(), t.clone())).collect();
+    let refs: Vec<&output::Table> = all.iter().collect();
+    let cover = output::publish::cover(&r, check.rows_read());
+    written.push(output::xlsx::write_workbook(
+        &out,
+        "roadtally.xlsx",
+        &cover,
+        &refs,
+    )?);
+    written.push(output::geojson_out::write_segments_geojson(
+        &out,
+        "segments.geojson",
+        &data.network,
+        &by_name["segment_statistics"],
+        "segment_id",
+    )?);
+    let report = output::publish::report_data(&r, &by_name);
+    written.push(output::report::write_report(&out, "report.html", &report)?);
+    let names: Vec<String> = written
+        .iter()
+        .map(|p| input::rejects::relative_name(&out, p))
+        .collect();
+    let manifest = output::publish::manifest(data, &config.settings, r.year, &names);
+    written.push(output::write_atomic(&out, "run_manifest.json", &manifest)?);
     let mut basis_counts = [0; 3];
     for s in &r.segments {
         basis_counts[s.basis as usize] += 1;

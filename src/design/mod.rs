@@ -30,6 +30,7 @@
 
 pub mod capacity;
 pub mod pavement;
+pub mod stage;
 pub mod tables;
 
 pub use capacity::{capacity_inputs, CapacityData, CapacityInputs, HvSource, PhfSource};

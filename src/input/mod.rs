@@ -122,3 +122,40 @@ pub fn read_study(root: &Path, progress: &Progress) -> Result<StudyData, InputEr
         files,
     })
 }
+
+/// SHA-256 of an input file (hex), for the run manifest; empty when it cannot be read.
+pub fn sha256_of(root: &Path, rel: &str) -> String {
+    use sha2::{Digest, Sha256};
+    let Ok(mut f) = std::fs::File::open(root.join(rel)) else {
+        return String::new();
+    };
+    let mut h = Sha256::new();
+    if std::io::copy(&mut f, &mut h).is_err() {
+        return String::new();
+    }
+    h.finalize().iter().map(|b| format!("{b:02x}")).collect()
+}
+
+/// The design tables of a study: its own `factors/` copies where present, else the shipped
+/// defaults (AASHTO 1993 lane distribution, truck factors, HCM defaults).
+pub fn read_design_tables(root: &Path) -> Result<crate::design::stage::DesignTables, InputError> {
+    use crate::design::{load_hcm_defaults, load_lane_distribution, load_truck_factors};
+    let mut t = crate::design::stage::DesignTables::default();
+    let bad = |name: &str, e: crate::design::DesignError| InputError::BadConfig {
+        path: PathBuf::from(format!("factors/{name}")),
+        reason: e.to_string(),
+    };
+    let p = root.join("factors/lane_distribution.csv");
+    if p.exists() {
+        t.lanes = load_lane_distribution(&p).map_err(|e| bad("lane_distribution.csv", e))?;
+    }
+    let p = root.join("factors/truck_factors.csv");
+    if p.exists() {
+        t.trucks = load_truck_factors(&p).map_err(|e| bad("truck_factors.csv", e))?;
+    }
+    let p = root.join("factors/hcm_defaults.csv");
+    if p.exists() {
+        t.hcm = load_hcm_defaults(&p).map_err(|e| bad("hcm_defaults.csv", e))?;
+    }
+    Ok(t)
+}

@@ -3,6 +3,7 @@
 
 pub mod csv_out;
 pub mod geojson_out;
+pub mod publish;
 pub mod report;
 pub mod svg;
 pub mod table;

@@ -1,0 +1,320 @@
+//! What the analyst hands on: the design and totals tables, the workbook's cover, the report's
+//! content and the run manifest, all built from the stages' outputs.
+
+use std::collections::BTreeMap;
+
+use super::report::{MapSegment, ReportData, Series};
+use super::table::{Cell, Column, Format, Table};
+use super::xlsx::CoverSheet;
+use crate::design::stage::DesignRow;
+use crate::input::StudyData;
+use crate::pipeline::Results;
+use crate::totals::Total;
+
+/// The caution every publication carries.
+pub const CAUTION: &str = "Every figure here is an estimate with a stated uncertainty (its 95 % interval). \
+Pavement and capacity design follows local codes and a licensed engineer's judgement; these figures are \
+inputs to that judgement, not a substitute for it.";
+
+fn col(name: &str, unit: &'static str, format: Format) -> Column {
+    Column::new(name, unit, format)
+}
+
+/// `design_inputs.csv`: pavement and capacity inputs per segment.
+pub fn design_table(data: &StudyData, rows: &[DesignRow], design_years: u32) -> Table {
+    let mut t = Table::new(
+        "design_inputs",
+        "Pavement (AASHTO 1993) and capacity (HCM) inputs per segment",
+        vec![
+            col("segment_id", "", Format::Text),
+            col("heavy_aadt", "veh/day", Format::Integer),
+            col("heavy_aadt_lo95", "veh/day", Format::Integer),
+            col("heavy_aadt_hi95", "veh/day", Format::Integer),
+            col("single_unit_aadt", "veh/day", Format::Integer),
+            col("combination_aadt", "veh/day", Format::Integer),
+            col("directional_factor_dd", "factor", Format::Decimal(3)),
+            col("lanes_per_direction", "", Format::Integer),
+            col("lane_factor_dl", "factor", Format::Decimal(3)),
+            col("truck_factor", "ESAL/truck", Format::Decimal(3)),
+            col("annual_esal_design_lane", "ESAL/yr", Format::Integer),
+            col("annual_esal_lo95", "ESAL/yr", Format::Integer),
+            col("annual_esal_hi95", "ESAL/yr", Format::Integer),
+            col("growth_rate", "share/yr", Format::Share),
+            col("design_years", "yr", Format::Integer),
+            col("growth_factor", "factor", Format::Decimal(3)),
+            col("cumulative_esal", "ESAL", Format::Integer),
+            col("cumulative_esal_lo95", "ESAL", Format::Integer),
+            col("cumulative_esal_hi95", "ESAL", Format::Integer),
+            col("ddhv", "veh/h", Format::Integer),
+            col("ddhv_lo95", "veh/h", Format::Integer),
+            col("ddhv_hi95", "veh/h", Format::Integer),
+            col("peak_hour_factor", "factor", Format::Decimal(3)),
+            col("phf_source", "", Format::Text),
+            col("design_hour_heavy_share", "share", Format::Share),
+            col("heavy_share_source", "", Format::Text),
+        ],
+    );
+    for r in rows {
+        let mut row = vec![Cell::from(data.network.segments[r.segment].id.as_str())];
+        match &r.pavement {
+            Some(p) => row.extend([
+                Cell::from(p.heavy_aadt),
+                Cell::from(p.heavy_aadt_lo95),
+                Cell::from(p.heavy_aadt_hi95),
+                Cell::from(p.su_aadt),
+                Cell::from(p.cu_aadt),
+                Cell::from(p.d_d),
+                Cell::from(p.lanes_per_direction),
+                Cell::from(p.d_l),
+                Cell::from(p.truck_factor),
+                Cell::from(p.annual_esal_design_lane),
+                Cell::from(p.annual_esal_design_lane_lo95),
+                Cell::from(p.annual_esal_design_lane_hi95),
+                Cell::from(r.growth_rate),
+                Cell::from(design_years),
+                Cell::from(p.growth_factor),
+                Cell::from(p.cumulative_esal),
+                Cell::from(p.cumulative_esal_lo95),
+                Cell::from(p.cumulative_esal_hi95),
+            ]),
+            None => row.extend(std::iter::repeat_n(Cell::Empty, 18)),
+        }
+        match &r.capacity {
+            Some(c) => row.extend([
+                Cell::from(c.ddhv),
+                Cell::from(c.ddhv_lo95),
+                Cell::from(c.ddhv_hi95),
+                Cell::from(c.phf),
+                Cell::from(c.phf_source.as_str()),
+                Cell::from(c.design_hour_heavy_share),
+                Cell::from(c.hv_source.as_str()),
+            ]),
+            None => row.extend(std::iter::repeat_n(Cell::Empty, 7)),
+        }
+        t.push(row);
+    }
+    t
+}
+
+/// `network_totals.csv`.
+pub fn totals_table(totals: &[Total], days_in_year: f64) -> Table {
+    let mut t = Table::new(
+        "network_totals",
+        "Vehicle-km travelled by functional class and area, light and heavy",
+        vec![
+            col("functional_class", "", Format::Text),
+            col("area", "", Format::Text),
+            col("vehicles", "", Format::Text),
+            col("segments", "", Format::Integer),
+            col("daily_vkt", "veh-km/day", Format::Integer),
+            col("daily_vkt_lo95", "veh-km/day", Format::Integer),
+            col("daily_vkt_hi95", "veh-km/day", Format::Integer),
+            col("daily_vkt_lo95_correlated", "veh-km/day", Format::Integer),
+            col("daily_vkt_hi95_correlated", "veh-km/day", Format::Integer),
+            col(
+                "annual_vkt_million",
+                "million veh-km/yr",
+                Format::Decimal(3),
+            ),
+        ],
+    );
+    for x in totals {
+        let (lo, hi) = x.interval();
+        let (clo, chi) = x.interval_correlated();
+        t.push(vec![
+            Cell::from(if x.functional_class == 0 {
+                "all".to_string()
+            } else {
+                x.functional_class.to_string()
+            }),
+            Cell::from(x.area),
+            Cell::from(x.vehicles),
+            Cell::from(x.segments),
+            Cell::from(x.daily_vkt),
+            Cell::from(lo),
+            Cell::from(hi),
+            Cell::from(clo),
+            Cell::from(chi),
+            Cell::from(x.daily_vkt * days_in_year / 1e6),
+        ]);
+    }
+    t
+}
+
+/// The workbook's first sheet.
+pub fn cover(r: &Results, input_rows: u64) -> CoverSheet {
+    let mut basis = [0usize; 3];
+    for s in &r.segments {
+        basis[s.basis as usize] += 1;
+    }
+    CoverSheet {
+        title: format!("Annual traffic statistics {}", r.year),
+        lines: vec![
+            ("Study year".into(), r.year.to_string()),
+            ("Tool".into(), format!("roadtally {}", env!("CARGO_PKG_VERSION"))),
+            ("Input rows read".into(), input_rows.to_string()),
+            ("Input rows rejected".into(), r.data.rejected.len().to_string()),
+            ("Segments".into(), r.segments.len().to_string()),
+            ("From permanent counters".into(), basis[0].to_string()),
+            ("From short counts".into(), basis[1].to_string()),
+            ("Estimated (no count)".into(), basis[2].to_string()),
+            ("Short counts expanded".into(), r.expansion.counts.len().to_string()),
+            ("Station-days rejected by QC".into(), r.qc.summary.rejected.to_string()),
+            ("Methods".into(), "AASHTO AADT at permanent counters; TMG factor groups and factor application for short counts, with intervals calibrated on the counters; kriging with external drift on ln AADT for uncounted segments. See README and the report.".into()),
+        ],
+        caution: CAUTION.into(),
+    }
+}
+
+/// The report's content.
+pub fn report_data(r: &Results, tables: &BTreeMap<String, Table>) -> ReportData {
+    let net = &r.data.network;
+    let map = r
+        .segments
+        .iter()
+        .filter(|s| s.aadt.value.is_finite())
+        .map(|s| {
+            let seg = &net.segments[s.segment];
+            let (a, b) = (&net.nodes[seg.from], &net.nodes[seg.to]);
+            MapSegment {
+                from: (a.lon, a.lat),
+                to: (b.lon, b.lat),
+                aadt: s.aadt.value,
+                lo95: s.aadt.lo95,
+                hi95: s.aadt.hi95,
+                basis: s.basis.as_str().to_string(),
+                label: format!("{} {}", seg.id, seg.route.as_deref().unwrap_or("")),
+            }
+        })
+        .collect();
+    let mut monthly = Vec::new();
+    let mut weekday = Vec::new();
+    for g in &r.factors.groups {
+        if let Some(s) = &g.summary {
+            monthly.push(Series {
+                name: g.name.clone(),
+                values: s.monthly_factors().to_vec(),
+            });
+            weekday.push(Series {
+                name: g.name.clone(),
+                values: s.day_of_week_factors().to_vec(),
+            });
+        }
+    }
+    let q = &r.qc.summary;
+    let mut qc = Table::new(
+        "qc_summary",
+        "Station-days accepted, flagged and rejected per station",
+        vec![
+            col("station_id", "", Format::Text),
+            col("accepted", "days", Format::Integer),
+            col("flagged", "days", Format::Integer),
+            col("rejected", "days", Format::Integer),
+        ],
+    );
+    let mut per: BTreeMap<usize, (usize, usize, usize)> = BTreeMap::new();
+    for (si, days) in r.data.counts.days.iter().enumerate() {
+        for day in days.values() {
+            let e = per.entry(si).or_default();
+            for d in crate::model::Direction::ALL {
+                if day.dir(d).is_some() {
+                    e.0 += 1;
+                }
+            }
+        }
+    }
+    let mut flagged: BTreeMap<
+        usize,
+        std::collections::BTreeSet<(chrono::NaiveDate, crate::model::Direction)>,
+    > = BTreeMap::new();
+    for f in &r.qc.findings {
+        if !r.qc.is_rejected(f.station, f.date, f.direction) {
+            flagged
+                .entry(f.station)
+                .or_default()
+                .insert((f.date, f.direction));
+        }
+    }
+    let mut rejected: BTreeMap<usize, usize> = BTreeMap::new();
+    for (s, _, _) in &r.qc.rejected {
+        *rejected.entry(*s).or_default() += 1;
+    }
+    for (s, (all, _, _)) in per {
+        let rej = rejected.get(&s).copied().unwrap_or(0);
+        let fl = flagged.get(&s).map_or(0, |x| x.len());
+        qc.push(vec![
+            Cell::from(r.data.stations.stations[s].id.as_str()),
+            Cell::from(all - rej),
+            Cell::from(fl),
+            Cell::from(rej),
+        ]);
+    }
+    let extra: Vec<Table> = [
+        "factor_groups",
+        "toll_reconciliation",
+        "design_inputs",
+        "spatial_model",
+    ]
+    .iter()
+    .filter_map(|n| tables.get(*n).cloned())
+    .collect();
+    ReportData {
+        title: format!("Annual traffic statistics {}", r.year),
+        study_year: r.year,
+        generated_by: format!("roadtally {}", env!("CARGO_PKG_VERSION")),
+        summary: vec![
+            ("Segments".into(), r.segments.len().to_string()),
+            ("Permanent counters used".into(), r.continuous.stations.len().to_string()),
+            ("Short counts expanded".into(), r.expansion.counts.len().to_string()),
+            ("Direction-days checked".into(), q.direction_days.to_string()),
+            ("Direction-days rejected / flagged".into(), format!("{} / {}", q.rejected, q.flagged)),
+            ("Input rows rejected".into(), r.data.rejected.len().to_string()),
+        ],
+        map,
+        monthly_factors: monthly,
+        weekday_factors: weekday,
+        calibration: tables.get("short_count_calibration").cloned(),
+        cross_validation: tables.get("cross_validation").cloned(),
+        qc_summary: Some(qc),
+        network_totals: tables.get("network_totals").cloned(),
+        extra_tables: extra,
+        methods: vec![
+            ("Permanent counters".into(), "AADT by the AASHTO method: the mean over the seven weekdays of the mean over twelve months of each month-weekday average (FHWA TMG 2022, App. L). K30 is the 30th-highest two-way clock hour over AADT; D its heavier direction's share.".into()),
+            ("Factor groups".into(), "Functional class by area with a recreational group (TMG); segments without a counter follow the editable assignment table and the same-road rule. Factors multiply a count: F = AADT / MADW.".into()),
+            ("Short counts".into(), "Each 24-hour period times the group's day-of-week-by-month factor, axle correction and growth (TMG factor application); the 95 % interval is scaled by a calibration that draws simulated counts from every permanent counter and expands them without it.".into()),
+            ("Uncounted segments".into(), "Kriging with external drift on ln AADT: a regression on class, area, lanes, speed and the route's counted level gives the drift; an exponential covariance fitted by weighted least squares; each count enters with its own measurement variance. Intervals exp(m ± 1.96 √v). Validated by leave-one-out against two simpler estimators.".into()),
+            ("Network totals".into(), "Sum of AADT × length; the interval treats segments as independent, and a second interval as fully correlated, which bounds it.".into()),
+        ],
+        caution: CAUTION.into(),
+    }
+}
+
+/// `run_manifest.json`: tool version, settings and each input file's checksum and row tally,
+/// so a published figure can be traced. No clock time, so identical inputs give identical bytes.
+pub fn manifest(
+    data: &StudyData,
+    settings: &crate::config::Settings,
+    year: i32,
+    outputs: &[String],
+) -> Vec<u8> {
+    let mut inputs = Vec::new();
+    for f in &data.files {
+        inputs.push(serde_json::json!({
+            "file": f.file,
+            "sha256": crate::input::sha256_of(&data.root, &f.file),
+            "rows": f.rows,
+            "rejected": f.rejected,
+        }));
+    }
+    let doc = serde_json::json!({
+        "tool": "roadtally",
+        "version": env!("CARGO_PKG_VERSION"),
+        "study_year": year,
+        "settings": settings,
+        "inputs": inputs,
+        "outputs": outputs,
+    });
+    let mut out = serde_json::to_vec_pretty(&doc).expect("json");
+    out.push(b'\n');
+    out
+}

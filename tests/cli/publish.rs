@@ -1,0 +1,185 @@
+//! The published forms: workbook, GeoJSON, report, manifest, and byte-identical reruns.
+
+use std::collections::HashMap;
+use std::path::Path;
+
+use calamine::{open_workbook, Data, Reader, Xlsx};
+
+use super::*;
+
+fn run_demo(out: &Path) {
+    let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/small");
+    let o = roadtally()
+        .args(["run", "--quiet", "--out"])
+        .arg(out)
+        .arg(&demo)
+        .output()
+        .unwrap();
+    assert!(
+        o.status.code().is_some_and(|c| c <= 1),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+}
+
+fn csv_rows(path: &Path) -> Vec<Vec<String>> {
+    let mut r = csv::Reader::from_path(path).unwrap();
+    let mut rows = vec![r.headers().unwrap().iter().map(String::from).collect()];
+    rows.extend(
+        r.records()
+            .map(|x| x.unwrap().iter().map(String::from).collect()),
+    );
+    rows
+}
+
+#[test]
+fn two_runs_give_byte_identical_outputs() {
+    let (a, b) = (tempfile::tempdir().unwrap(), tempfile::tempdir().unwrap());
+    run_demo(a.path());
+    run_demo(b.path());
+    let mut n = 0;
+    for e in std::fs::read_dir(a.path()).unwrap() {
+        let p = e.unwrap().path();
+        if p.is_file() {
+            let name = p.file_name().unwrap();
+            assert_eq!(
+                std::fs::read(&p).unwrap(),
+                std::fs::read(b.path().join(name)).unwrap(),
+                "{name:?}"
+            );
+            n += 1;
+        }
+    }
+    assert!(n >= 15, "{n} files compared");
+}
+
+/// The workbook read back with calamine agrees with the CSV tables: sheets, headers (with
+/// units) and values.
+#[test]
+fn workbook_sheets_match_the_csv_tables() {
+    let out = tempfile::tempdir().unwrap();
+    run_demo(out.path());
+    let mut wb: Xlsx<_> = open_workbook(out.path().join("roadtally.xlsx")).unwrap();
+    let sheets = wb.sheet_names().to_vec();
+    assert_eq!(sheets[0], "about");
+    for name in [
+        "segment_statistics",
+        "station_statistics",
+        "toll_reconciliation",
+        "design_inputs",
+    ] {
+        assert!(
+            sheets.iter().any(|s| s == name),
+            "sheet {name} in {sheets:?}"
+        );
+        let range = wb.worksheet_range(name).unwrap();
+        let csv = csv_rows(&out.path().join(format!("{name}.csv")));
+        assert_eq!(range.height(), csv.len(), "{name} rows");
+        for (j, h) in csv[0].iter().enumerate() {
+            let cell = range.get((0, j)).unwrap().to_string();
+            assert!(
+                cell == *h || cell.starts_with(&format!("{h} (")),
+                "{name} header {cell} vs {h}"
+            );
+        }
+        // A sample of values: every 7th row, every column, numerically equal at CSV precision.
+        for i in (1..csv.len()).step_by(7) {
+            for (j, text) in csv[i].iter().enumerate() {
+                let cell = range.get((i, j)).unwrap();
+                match cell {
+                    Data::Empty => assert!(text.is_empty(), "{name} ({i},{j}) empty vs {text}"),
+                    Data::Float(v) => {
+                        let want: f64 = text.parse().unwrap();
+                        let tol =
+                            0.5 * 10f64.powi(-(text.split('.').nth(1).map_or(0, str::len) as i32));
+                        assert!(
+                            (v - want).abs() <= tol + 1e-9,
+                            "{name} ({i},{j}) {v} vs {text}"
+                        );
+                    }
+                    Data::Int(v) => assert_eq!(v.to_string(), *text),
+                    other => assert_eq!(other.to_string(), *text, "{name} ({i},{j})"),
+                }
+            }
+        }
+    }
+    let about = wb.worksheet_range("about").unwrap();
+    let text: String = about
+        .cells()
+        .map(|(_, _, c)| c.to_string())
+        .collect::<Vec<_>>()
+        .join(" ");
+    assert!(
+        text.contains("licensed engineer"),
+        "the caution is on the first sheet"
+    );
+}
+
+#[test]
+fn geojson_has_one_line_per_segment_with_its_statistics() {
+    let out = tempfile::tempdir().unwrap();
+    run_demo(out.path());
+    let text = std::fs::read_to_string(out.path().join("segments.geojson")).unwrap();
+    let gj: geojson::GeoJson = text.parse().unwrap();
+    let geojson::GeoJson::FeatureCollection(fc) = gj else {
+        panic!("not a FeatureCollection")
+    };
+    let seg = csv_rows(&out.path().join("segment_statistics.csv"));
+    assert_eq!(fc.features.len(), seg.len() - 1);
+    let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/small/network");
+    let nodes: HashMap<String, (f64, f64)> = csv_rows(&demo.join("nodes.csv"))[1..]
+        .iter()
+        .map(|r| (r[0].clone(), (r[1].parse().unwrap(), r[2].parse().unwrap())))
+        .collect();
+    let segs: HashMap<String, (String, String)> = csv_rows(&demo.join("segments.csv"))[1..]
+        .iter()
+        .map(|r| (r[0].clone(), (r[1].clone(), r[2].clone())))
+        .collect();
+    let f = &fc.features[0];
+    let props = f.properties.as_ref().unwrap();
+    let id = props["segment_id"].as_str().unwrap();
+    let Some(geojson::Value::LineString(line)) = f.geometry.as_ref().map(|g| &g.value) else {
+        panic!("LineString")
+    };
+    let (from, to) = &segs[id];
+    assert!((line[0][0] - nodes[from].0).abs() < 1e-6 && (line[0][1] - nodes[from].1).abs() < 1e-6);
+    assert!((line[1][0] - nodes[to].0).abs() < 1e-6 && (line[1][1] - nodes[to].1).abs() < 1e-6);
+    let row = seg.iter().find(|r| r[0] == id).unwrap();
+    let aadt: f64 = row[1].parse().unwrap();
+    assert!((props["aadt"].as_f64().unwrap() - aadt).abs() < 0.5);
+    assert_eq!(props["basis"].as_str().unwrap(), row[4]);
+}
+
+/// A station and a route whose names hold markup come out escaped in the report.
+#[test]
+fn report_escapes_text_from_the_inputs() {
+    let evil = "<script>alert(1)</script>";
+    let rows: String = (0..24)
+        .map(|h| format!("\"{evil}\",fwd,2025-06-03T{h:02}:00:00-04:00,60,100\n\"{evil}\",rev,2025-06-03T{h:02}:00:00-04:00,60,90\n"))
+        .collect();
+    let s = Study::new(&format!(
+        "station_id,direction,start,minutes,vehicles\n{rows}"
+    ));
+    s.write(
+        "stations.csv",
+        &format!("station_id,segment_id,kind\n\"{evil}\",S1,continuous\n"),
+    );
+    s.write(
+        "network/segments.csv",
+        &format!("segment_id,from_node,to_node,length_km,functional_class,area,lanes,oneway,route\nS1,A,B,0.80,3,urban,2,false,\"{evil}\"\nS2,B,C,0.80,3,urban,1,true,R1\n"),
+    );
+    let out = s.run();
+    assert!(
+        out.status.code().is_some_and(|c| c <= 1),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let html = std::fs::read_to_string(s.out().join("report.html")).unwrap();
+    assert!(!html.contains("<script"), "no raw script tag");
+    assert!(html.contains("&lt;script&gt;"), "escaped text present");
+    assert!(
+        !html.contains("src=\"http") && !html.contains("href=\"http"),
+        "no network fetches"
+    );
+    assert!(html.contains("licensed engineer"));
+}
