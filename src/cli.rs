@@ -49,6 +49,25 @@ pub enum Command {
         #[arg(long)]
         year: Option<i32>,
     },
+    /// Measure the short-count intervals on the study's own permanent counters: simulated
+    /// short counts (24, 48, 72 hours, many start days) are drawn from every counter and
+    /// expanded with factors computed without it. Prints the table of errors and coverage.
+    Calibrate {
+        /// The study folder.
+        study: PathBuf,
+        /// Also write short_count_calibration.csv into this folder.
+        #[arg(long, short)]
+        out: Option<PathBuf>,
+        /// Study year (overrides `year` in study.toml).
+        #[arg(long)]
+        year: Option<i32>,
+    },
+    /// Print a complete study.toml with every setting at its default, with comments.
+    Config {
+        /// Print the defaults (the only mode).
+        #[arg(long, default_value_t = true)]
+        defaults: bool,
+    },
     /// Generate an invented demo study with known true volumes and injected faults.
     Demo {
         /// Folder to write the study into.

@@ -88,6 +88,21 @@ fn dispatch(cli: &Cli) -> anyhow::Result<u8> {
             }
             Ok(report.check.exit_code() as u8)
         }
+        Command::Calibrate { study, out, year } => {
+            let config = Config::new(study, None, *year, cli.quiet)?;
+            let r = pipeline::compute(&config)?;
+            let table = roadtally::output::tables::calibration_table(&r.calibration);
+            print!("{}", table_text(&table));
+            if let Some(out) = out {
+                roadtally::output::ensure_dir(out)?;
+                roadtally::output::csv_out::write(out, &table)?;
+            }
+            Ok(0)
+        }
+        Command::Config { .. } => {
+            print!("{}", roadtally::config::Settings::defaults_toml());
+            Ok(0)
+        }
         Command::Demo { out, seed, size } => {
             let params = DemoParams::new(*seed, *size);
             let summary = demo::generate(&params, out)?;
