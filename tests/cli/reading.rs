@@ -302,3 +302,45 @@ fn every_row_read_is_used_or_rejected() {
     assert_eq!(nums, [3 + 2 + 2 + 49, 25]);
     assert_eq!(nums[0] - nums[1], 3 + 2 + 2 + 24);
 }
+
+/// Clock changes: the spring-forward day has 23 clock hours and the fall-back day 25 (the
+/// repeated 01:00 hour carries both offsets). Both are complete days, not faults.
+#[test]
+fn clock_change_days_are_complete_days() {
+    let mut text = String::from(HOURLY);
+    // 2025-03-09: 00:00 and 01:00 at -05:00, then 03:00..23:00 at -04:00 (23 rows).
+    for h in (0..2).chain(3..24) {
+        let off = if h < 2 { "-05:00" } else { "-04:00" };
+        for dir in ["fwd", "rev"] {
+            text.push_str(&format!(
+                "C1,{dir},2025-03-09T{h:02}:00:00{off},60,{}\n",
+                40 + h
+            ));
+        }
+    }
+    // 2025-11-02: 00:00 and 01:00 at -04:00, 01:00 again and 02:00..23:00 at -05:00 (25 rows).
+    for (h, off) in [(0, "-04:00"), (1, "-04:00"), (1, "-05:00")]
+        .into_iter()
+        .chain((2..24).map(|h| (h, "-05:00")))
+    {
+        for dir in ["fwd", "rev"] {
+            text.push_str(&format!(
+                "C1,{dir},2025-11-02T{h:02}:00:00{off},60,{}\n",
+                40 + h
+            ));
+        }
+    }
+    let s = Study::new(&text);
+    let out = s.run();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let qc = s.output_csv("qc_log.csv");
+    assert!(
+        !qc.iter().any(|r| r[3] == "incomplete"),
+        "no clock-change day is incomplete: {qc:?}"
+    );
+}
