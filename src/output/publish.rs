@@ -276,7 +276,13 @@ pub fn report_data(r: &Results, tables: &BTreeMap<String, Table>) -> ReportData 
         calibration: tables.get("short_count_calibration").cloned(),
         cross_validation: tables.get("cross_validation").cloned(),
         qc_summary: Some(qc),
-        network_totals: tables.get("network_totals").cloned(),
+        // The report shows the network rows and one row per class; the CSV has every area.
+        network_totals: tables.get("network_totals").map(|t| {
+            let mut t = t.clone();
+            let area = t.column("area").expect("area column");
+            t.rows.retain(|r| matches!(&r[area], Cell::Text(a) if a == "all"));
+            t
+        }),
         extra_tables: extra,
         methods: vec![
             ("Permanent counters".into(), "AADT by the AASHTO method: the mean over the seven weekdays of the mean over twelve months of each month-weekday average (FHWA TMG 2022, App. L). K30 is the 30th-highest two-way clock hour over AADT; D its heavier direction's share.".into()),
