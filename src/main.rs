@@ -72,6 +72,11 @@ fn dispatch(cli: &Cli) -> anyhow::Result<u8> {
                 println!(
                     "segments: {c} from permanent counters, {s} from short counts, {e} estimated"
                 );
+                if let Some((v, lo, hi)) = report.network_vkt {
+                    println!(
+                        "network daily VKT: {v:.0} veh-km/day (95 % {lo:.0} to {hi:.0}, segments independent)"
+                    );
+                }
                 print!(
                     "\nshort-count calibration\n{}",
                     table_text(&report.calibration)

@@ -119,6 +119,8 @@ pub struct RunReport {
     pub calibration: output::Table,
     /// Cross-validation table.
     pub cross_validation: output::Table,
+    /// Network daily VKT with its 95 % interval (segments independent).
+    pub network_vkt: Option<(f64, f64, f64)>,
 }
 
 /// Every stage's output, for writers and tests.
@@ -259,6 +261,8 @@ pub fn run(config: &Config) -> Result<RunReport, PipelineError> {
     let all = [
         seg_table,
         tables::station_statistics(data, &r.continuous, &r.factors),
+        tables::hourly_distribution(data, &r.continuous),
+        tables::ranked_hours(data, &r.continuous),
         tables::factors_table(&r.factors, config.settings.factors.target_precision),
         tables::factor_groups(data, &r.factors),
         tables::short_counts(data, &r.expansion),
@@ -366,6 +370,14 @@ pub fn run(config: &Config) -> Result<RunReport, PipelineError> {
         basis_counts,
         calibration,
         cross_validation,
+        network_vkt: r
+            .totals
+            .iter()
+            .find(|t| t.functional_class == 0 && t.area == "all" && t.vehicles == "all")
+            .map(|t| {
+                let (lo, hi) = t.interval();
+                (t.daily_vkt, lo, hi)
+            }),
     })
 }
 

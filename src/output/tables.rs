@@ -797,3 +797,59 @@ pub fn toll_summary(
     }
     t
 }
+
+/// `hourly_distribution.csv`: each counter's share of the day per clock hour, by day type.
+pub fn hourly_distribution(data: &StudyData, cont: &ContinuousOutput) -> Table {
+    let mut cols = vec![
+        col("station_id", "", Format::Text),
+        col("day_type", "", Format::Text),
+        col("days", "days", Format::Integer),
+    ];
+    cols.extend((0..24).map(|h| Column::new(&format!("h{h:02}"), "share", Format::Share)));
+    let mut t = Table::new(
+        "hourly_distribution",
+        "Share of daily volume per clock hour, by day type",
+        cols,
+    );
+    for s in &cont.stations {
+        let Some(d) = &s.distribution else { continue };
+        for (k, name) in ["weekday", "saturday", "sunday"].iter().enumerate() {
+            let Some(sh) = &d.shares[k] else { continue };
+            let mut row = vec![
+                Cell::from(data.stations.stations[s.station].id.as_str()),
+                Cell::from(*name),
+                Cell::from(d.days[k]),
+            ];
+            row.extend(sh.iter().map(|v| Cell::from(*v)));
+            t.push(row);
+        }
+    }
+    t
+}
+
+/// `ranked_hours.csv`: each counter's highest hours of the year as K-values (the ranked-hour
+/// curve), for agencies that design for another hour than the 30th.
+pub fn ranked_hours(data: &StudyData, cont: &ContinuousOutput) -> Table {
+    let mut t = Table::new(
+        "ranked_hours",
+        "Ranked two-way hours of the year as K-values",
+        vec![
+            col("station_id", "", Format::Text),
+            col("rank", "", Format::Integer),
+            col("volume", "veh/h", Format::Integer),
+            col("k_value", "factor", Format::Decimal(4)),
+        ],
+    );
+    for s in &cont.stations {
+        let Some(d) = &s.design else { continue };
+        for (i, k) in d.ranked_k.iter().enumerate() {
+            t.push(vec![
+                Cell::from(data.stations.stations[s.station].id.as_str()),
+                Cell::from(i + 1),
+                Cell::from(k * d.aadt),
+                Cell::from(*k),
+            ]);
+        }
+    }
+    t
+}
