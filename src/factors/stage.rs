@@ -208,14 +208,8 @@ fn group_area(a: Area) -> GroupArea {
     }
 }
 
-/// Group factors for expansion from a set of counters: the cell-wise mean of their 7 x 12
-/// factors, the between-station CV per cell, and the pooled day-to-day CV.
-pub fn group_factors(stats: &[&StationStats], how: CellFactors) -> Option<GroupFactors> {
-    let f: Vec<[[f64; 12]; 7]> = stats
-        .iter()
-        .filter_map(|s| s.aadt.factors())
-        .map(|f| cell_factors(&f, how))
-        .collect();
+/// Cell-wise mean and between-station CV of several counters' 7 x 12 factor tables.
+fn average_tables(f: &[[[f64; 12]; 7]]) -> Option<GroupFactors> {
     if f.is_empty() {
         return None;
     }
@@ -234,6 +228,18 @@ pub fn group_factors(stats: &[&StationStats], how: CellFactors) -> Option<GroupF
             }
         }
     }
+    Some(out)
+}
+
+/// Group factors for expansion from a set of counters: the cell-wise mean of their 7 x 12
+/// factors, the between-station CV per cell, and the pooled day-to-day CV.
+pub fn group_factors(stats: &[&StationStats], how: CellFactors) -> Option<GroupFactors> {
+    let f: Vec<[[f64; 12]; 7]> = stats
+        .iter()
+        .filter_map(|s| s.aadt.factors())
+        .map(|f| cell_factors(&f, how))
+        .collect();
+    let mut out = average_tables(&f)?;
     let cvs: Vec<f64> = stats.iter().filter_map(|s| s.day_cv).collect();
     if !cvs.is_empty() {
         out.day_cv = Some((cvs.iter().map(|c| c * c).sum::<f64>() / cvs.len() as f64).sqrt());
@@ -248,25 +254,7 @@ fn heavy_group_factors(stats: &[&StationStats], how: CellFactors) -> Option<Grou
         .filter_map(|s| s.classes.as_ref()?.heavy_factors())
         .map(|f| cell_factors(&f, how))
         .collect();
-    if f.is_empty() {
-        return None;
-    }
-    let mut out = GroupFactors {
-        dow_month: [[1.0; 12]; 7],
-        dow_month_cv: [[None; 12]; 7],
-        day_cv: None,
-        stations: f.len(),
-    };
-    for i in 0..7 {
-        for j in 0..12 {
-            let v: Vec<f64> = f.iter().map(|x| x[i][j]).collect();
-            if let Some(st) = FactorStats::from_values(&v) {
-                out.dow_month[i][j] = st.mean;
-                out.dow_month_cv[i][j] = (st.n >= 2).then_some(st.cv);
-            }
-        }
-    }
-    Some(out)
+    average_tables(&f)
 }
 
 /// The default assignment table: one row per class and area, plus a row per route and area
