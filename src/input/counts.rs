@@ -431,19 +431,16 @@ fn range_bounds(path: &Path, len: u64, range_bytes: u64) -> Option<Vec<u64>> {
     (bounds.len() > 2).then_some(bounds)
 }
 
-/// Passes bytes through, counting newlines and noting any quote.
+/// Passes bytes through, noting any quote.
 struct Scan<R> {
     inner: R,
-    newlines: u64,
     quote: bool,
 }
 
 impl<R: std::io::Read> std::io::Read for Scan<R> {
     fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
         let n = self.inner.read(buf)?;
-        let got = &buf[..n];
-        self.newlines += got.iter().filter(|&&b| b == b'\n').count() as u64;
-        self.quote |= got.contains(&b'"');
+        self.quote |= buf[..n].contains(&b'"');
         Ok(n)
     }
 }
@@ -465,7 +462,6 @@ fn parse_range(
     file.seek(SeekFrom::Start(a)).ok()?;
     let scan = Scan {
         inner: file.take(b - a),
-        newlines: 0,
         quote: false,
     };
     let mut reader = csv::ReaderBuilder::new()
@@ -485,15 +481,17 @@ fn parse_range(
             Err((fault, key)) => rejects.push((line, fault, key)),
         }
     }
-    let scan = reader.into_inner();
-    if scan.quote {
+    // The parser counts every `\n` it consumes, starting from line 1, and it has consumed
+    // the whole range.
+    let newlines = reader.position().line() - 1;
+    if reader.into_inner().quote {
         return None;
     }
     Some(Part {
         store,
         rejects,
         rows,
-        newlines: scan.newlines,
+        newlines,
     })
 }
 
