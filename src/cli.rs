@@ -82,4 +82,13 @@ pub enum Command {
         #[arg(long, value_enum, default_value_t = DemoSize::Small)]
         size: DemoSize,
     },
+    /// Time reading and quality control on a generated ~7 million-row year (see `bench`).
+    Bench {
+        /// Folder of the benchmark study (generated there when absent).
+        #[arg(long, default_value = crate::bench::DEFAULT_DIR)]
+        dir: PathBuf,
+        /// Generate the study again even when the folder holds one.
+        #[arg(long)]
+        regenerate: bool,
+    },
 }

@@ -13,6 +13,7 @@
 //!
 //! [`demo`] generates an invented study with known truth for tests and demonstrations.
 
+pub mod bench;
 pub mod cli;
 pub mod config;
 pub mod continuous;

@@ -124,5 +124,9 @@ fn dispatch(cli: &Cli) -> anyhow::Result<u8> {
             }
             Ok(0)
         }
+        Command::Bench { dir, regenerate } => {
+            print!("{}", roadtally::bench::run_bench(dir, *regenerate)?);
+            Ok(0)
+        }
     }
 }

@@ -79,7 +79,7 @@ mod tests;
 
 use std::collections::{BTreeMap, HashSet};
 
-use chrono::NaiveDate;
+use chrono::{Datelike, NaiveDate};
 use rayon::prelude::*;
 
 use crate::input::counts::CountStore;
@@ -494,15 +494,19 @@ pub(crate) fn check_station(
         }
     }
     // Daily totals against the typical day, at the seasonal level of the neighbouring days.
-    for &(d, date, _) in &levels {
-        let window = p.daily_deviation_window_days as i64;
-        let near: Vec<f64> = levels
-            .iter()
-            .filter(|(dd, other, _)| {
-                *dd == d && *other != date && (*other - date).num_days().abs() <= window
-            })
-            .map(|x| x.2)
-            .collect();
+    // `levels` is in (direction, date) order, so a day's neighbours within the window are
+    // one run of it: found by binary search, in the same order as a scan would find them.
+    let window = p.daily_deviation_window_days as i64;
+    let keys: Vec<(Direction, i64)> = levels
+        .iter()
+        .map(|(d, date, _)| (*d, i64::from(date.num_days_from_ce())))
+        .collect();
+    debug_assert!(keys.is_sorted());
+    for (i, &(d, date, _)) in levels.iter().enumerate() {
+        let day = keys[i].1;
+        let lo = keys.partition_point(|k| *k < (d, day - window));
+        let hi = keys.partition_point(|k| *k <= (d, day + window));
+        let near: Vec<f64> = (lo..hi).filter(|&j| j != i).map(|j| levels[j].2).collect();
         let season = if window > 0 && near.len() >= p.profile_min_days {
             rules::median_of(near)
         } else {
