@@ -359,6 +359,34 @@ pub fn assemble(
                 row.count_type = kinds.join(" ");
                 row.count_hours = counts.iter().map(|x| x.hours).sum();
                 row.counts = counts.len();
+                // K from the counts' own busiest working-day hour, related to the design hour by
+                // the group's ratio K30 / peak-hour share (its ranked-hour curve at rank 30);
+                // D from the direction split of those peak hours.
+                let peak_days: usize = counts.iter().map(|x| x.peak_days).sum();
+                if let (Some(ratio), true) = (group.peak_ratio.as_ref(), peak_days > 0) {
+                    let share = counts
+                        .iter()
+                        .filter_map(|x| x.daily_peak_share.map(|p| p * x.peak_days as f64))
+                        .sum::<f64>()
+                        / peak_days as f64;
+                    let cv_r = if ratio.n >= 2 { ratio.cv } else { 0.15 };
+                    // Day-to-day spread of a peak-hour share: 10 % (common practice).
+                    let s = (cv_r * cv_r * (1.0 + 1.0 / ratio.n.max(1) as f64)
+                        + 0.01 / peak_days as f64)
+                        .sqrt();
+                    let k = ratio.mean * share;
+                    row.k = Some(Sourced {
+                        value: k,
+                        lo95: k * (-Z95 * s).exp(),
+                        hi95: k * (Z95 * s).exp(),
+                        source: "short_count".into(),
+                    });
+                }
+                let ds: Vec<f64> = counts.iter().filter_map(|x| x.peak_d).collect();
+                if !ds.is_empty() && !oneway {
+                    let d = ds.iter().sum::<f64>() / ds.len() as f64;
+                    row.d = Some(Sourced::measured(d, 0.05, "short_count"));
+                }
                 let classified: Vec<_> =
                     counts.iter().filter(|x| x.heavy_share.is_some()).collect();
                 if !classified.is_empty() {

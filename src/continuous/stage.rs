@@ -83,6 +83,8 @@ pub struct StationStats {
     pub days_used: usize,
     /// Day-to-day coefficient of variation of a single day about its weekday-month mean.
     pub day_cv: Option<f64>,
+    /// Mean share of a working day's volume in its busiest clock hour (Monday-Friday).
+    pub daily_peak_share: Option<f64>,
 }
 
 /// What the stage produced.
@@ -164,6 +166,7 @@ fn station_stats(
     let mut both_only_hours = 0usize;
     let mut phf_candidates: Vec<(f64, f64)> = Vec::new();
     let mut last_date: Option<NaiveDate> = None;
+    let mut peak_shares: Vec<f64> = Vec::new();
     for day in &days {
         let excl = |d: Direction| filter.excluded(s, day.date, d);
         for d in Direction::ALL {
@@ -184,10 +187,15 @@ fn station_stats(
         let Some(hs) = complete_hours(day, oneway, Measured::Vehicles, &excl) else {
             continue;
         };
+        let total: f64 = hs.iter().map(|h| h.0 as f64).sum();
         two_way.push(DayVolume {
             date: day.date,
-            vehicles: hs.iter().map(|h| h.0 as f64).sum(),
+            vehicles: total,
         });
+        if day.date.weekday().num_days_from_monday() < 5 && total > 0.0 {
+            let peak = hs.iter().map(|h| h.0).max().unwrap_or(0) as f64;
+            peak_shares.push(peak / total);
+        }
         let follows_day = last_date.is_some_and(|p| p.succ_opt() == Some(day.date));
         last_date = Some(day.date);
         let classified = complete_classes(day, oneway, &excl).is_some();
@@ -282,6 +290,8 @@ fn station_stats(
         axles: (axles.axles > 0.0).then_some(axles),
         days_used: two_way.len(),
         day_cv,
+        daily_peak_share: (!peak_shares.is_empty())
+            .then(|| peak_shares.iter().sum::<f64>() / peak_shares.len() as f64),
         hours: count_hours,
         aadt,
     })

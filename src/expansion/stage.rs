@@ -53,6 +53,13 @@ pub struct ExpandedCount {
     pub single_unit_share: Option<f64>,
     /// Combination share, when classified.
     pub combination_share: Option<f64>,
+    /// Mean share of a complete working day's volume in its busiest hour, over the count's
+    /// complete Monday-Friday days.
+    pub daily_peak_share: Option<f64>,
+    /// Share of that peak hour in the heavier direction (directional counts only).
+    pub peak_d: Option<f64>,
+    /// Complete working days behind `daily_peak_share`.
+    pub peak_days: usize,
 }
 
 /// A segment's short-count AADT.
@@ -110,15 +117,19 @@ pub fn run(
             let mut profile = [0.0f64; 24];
             let mut profile_hours = [0usize; 24];
             let mut class_days: Vec<(NaiveDate, [u64; 13])> = Vec::new();
+            let mut peak_shares: Vec<f64> = Vec::new();
+            let mut peak_ds: Vec<f64> = Vec::new();
             let mut classified = false;
             for d in &days {
                 let excl = |x: Direction| filter.excluded(s, d.date, x);
                 let mut follows = prev.is_some_and(|p| p.succ_opt() == Some(d.date));
                 let mut complete = true;
                 let weekday = d.date.weekday().num_days_from_monday() < 5;
+                let mut day_hours: Vec<(u64, Option<u64>, Option<u64>)> = Vec::new();
                 for (k, h) in d.day_hours().enumerate() {
                     match two_way_hour(d, h, oneway, measure, &excl) {
-                        Some((v, _, _)) => {
+                        Some((v, f, r)) => {
+                            day_hours.push((v, f, r));
                             if weekday && k < 24 && d.hours_in_day() == 24 {
                                 profile[k] += v as f64;
                                 profile_hours[k] += 1;
@@ -137,6 +148,19 @@ pub fn run(
                     }
                 }
                 prev = complete.then_some(d.date);
+                let total: u64 = day_hours.iter().map(|x| x.0).sum();
+                if complete && weekday && total > 0 {
+                    let peak = day_hours
+                        .iter()
+                        .max_by_key(|x| x.0)
+                        .expect("a complete day has hours");
+                    peak_shares.push(peak.0 as f64 / total as f64);
+                    if let (Some(f), Some(r)) = (peak.1, peak.2) {
+                        if peak.0 > 0 && !oneway {
+                            peak_ds.push(f.max(r) as f64 / peak.0 as f64);
+                        }
+                    }
+                }
                 if let Some(c) = complete_classes(d, oneway, &excl) {
                     classified = true;
                     class_days.push((d.date, c));
@@ -259,6 +283,9 @@ pub fn run(
                         heavy_share: hs,
                         single_unit_share: sus,
                         combination_share: cus,
+                        daily_peak_share: mean(&peak_shares),
+                        peak_d: mean(&peak_ds),
+                        peak_days: peak_shares.len(),
                     });
                 }
                 Err(e) => out.unexpanded.push((s, cy, e.to_string())),
@@ -286,6 +313,10 @@ pub fn run(
         }
     }
     out
+}
+
+fn mean(v: &[f64]) -> Option<f64> {
+    (!v.is_empty()).then(|| v.iter().sum::<f64>() / v.len() as f64)
 }
 
 /// The mean axle-correction factor over every group that has one.

@@ -164,6 +164,9 @@ pub struct Group {
     pub combination_share: Option<FactorStats>,
     /// Mean weekday hourly distribution (shares of the day per clock hour) of its counters.
     pub weekday_profile: Option<[f64; 24]>,
+    /// K30 over the mean working-day peak-hour share, per counter: relates a short count's
+    /// own peak hour to the design hour (the group's ranked-hour curve at rank 30).
+    pub peak_ratio: Option<FactorStats>,
 }
 
 /// What the stage produced.
@@ -492,6 +495,9 @@ pub fn run(
                     .filter_map(|s| s.classes.as_ref()?.combination_share),
             ),
             weekday_profile: mean_profile(&fstats),
+            peak_ratio: stats_of(fstats.iter().filter_map(|s| {
+                Some(s.design.as_ref()?.k30 / s.daily_peak_share.filter(|p| *p > 0.0)?)
+            })),
         });
     }
     // 4. Clustering check.
