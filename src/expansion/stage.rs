@@ -13,12 +13,17 @@ use chrono::{Datelike, NaiveDate};
 
 use super::calibration::Calibration;
 use super::{
-    combine, expand_for_year, CountHour, Expanded, ExpansionParams, Growth, Measure, ShortCount,
+    combine, expand_for_year, CountHour, Expanded, ExpansionParams, GroupFactors, Growth, Measure,
+    ShortCount,
 };
 use crate::factors::stage::FactorOutput;
 use crate::input::StudyData;
 use crate::model::views::{complete_classes, two_way_hour, DayFilter, Measured};
 use crate::model::{Direction, StationKind};
+
+/// Coefficient of variation given to the factor of an unfactored count (a study without any
+/// usable permanent counter): seasonal and weekday swings of ±25 % are common (common practice).
+pub const UNFACTORED_CV: f64 = 0.25;
 
 /// One expanded short count.
 #[derive(Debug, Clone)]
@@ -209,13 +214,25 @@ pub fn run(
             let group = &factors.groups[group_index];
             let first = days.first().map(|d| d.date).expect("a year has days");
             let last = days.last().map(|d| d.date).expect("a year has days");
-            let Some(gf) = group.factors.as_ref() else {
-                out.unexpanded.push((
-                    s,
-                    cy,
-                    "no permanent counter gives factors for its group".into(),
-                ));
-                continue;
+            // With no usable permanent counter anywhere, counts are published unfactored
+            // (factor 1) with a wide factor CV, and the table says so.
+            let unfactored = GroupFactors {
+                dow_month: [[1.0; 12]; 7],
+                dow_month_cv: [[Some(UNFACTORED_CV); 12]; 7],
+                day_cv: None,
+                stations: 1,
+            };
+            let gf = match group.factors.as_ref() {
+                Some(gf) => gf,
+                None if factors.groups.iter().all(|g| g.factors.is_none()) => &unfactored,
+                None => {
+                    out.unexpanded.push((
+                        s,
+                        cy,
+                        "no permanent counter gives factors for its group".into(),
+                    ));
+                    continue;
+                }
             };
             // Heavy volumes expanded with the heavy-vehicle factors, totals with the group's.
             let hf = group.heavy_factors.as_ref().unwrap_or(gf);

@@ -371,7 +371,29 @@ pub fn run(net: &Network, obs: &[Observation], params: &SpatialParams) -> Spatia
         ..SpatialOutput::default()
     };
     if obs.len() < 3 {
-        out.model_note = format!("only {} counted segments: no spatial estimate", obs.len());
+        // Too few counts for a regression or a variogram: every uncounted segment gets the
+        // mean ln AADT of the counts with a wide variance (0.5², a factor of about 2.7 either
+        // way at 95 %), stated in the model note.
+        if !obs.is_empty() {
+            let m = obs.iter().map(|o| o.log_aadt).sum::<f64>() / obs.len() as f64;
+            let v = 0.25;
+            let counted: Vec<usize> = obs.iter().map(|o| o.segment).collect();
+            for (s, e) in out.estimates.iter_mut().enumerate() {
+                if !counted.contains(&s) {
+                    *e = Some(SegmentEstimate {
+                        aadt: Interval::from_log(m, v),
+                        log_mean: m,
+                        log_var: v,
+                        neighbours: obs.len(),
+                        fallback: "mean of fewer than three counts".into(),
+                    });
+                }
+            }
+        }
+        out.model_note = format!(
+            "only {} counted segments: uncounted segments take their mean with a wide interval",
+            obs.len()
+        );
         return out;
     }
     let mids = net.midpoints_km();
