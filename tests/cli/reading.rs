@@ -344,3 +344,43 @@ fn clock_change_days_are_complete_days() {
         "no clock-change day is incomplete: {qc:?}"
     );
 }
+
+/// A study with one short count and no permanent counter still gives every segment an AADT,
+/// with honestly wide intervals: the count unfactored, its neighbour from the count's level.
+#[test]
+fn a_study_without_permanent_counters_still_publishes_every_segment() {
+    let rows: String = (0..24)
+        .map(|h| {
+            format!(
+                "K1,both,2025-06-03T{h:02}:00:00-04:00,60,{}\n",
+                50 + (h * 37) % 90
+            )
+        })
+        .collect();
+    let s = Study::new(&format!("{HOURLY}{rows}"));
+    s.write("stations.csv", "station_id,segment_id,kind\nK1,S1,short\n");
+    s.write("study.toml", "year = 2025\n");
+    let out = s.run();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let seg = s.output_csv("segment_statistics.csv");
+    assert_eq!(seg.len(), 3);
+    for r in &seg[1..] {
+        let (a, lo, hi): (f64, f64, f64) = (
+            r[1].parse().unwrap(),
+            r[2].parse().unwrap(),
+            r[3].parse().unwrap(),
+        );
+        assert!(lo < a && a < hi && hi / lo > 2.0, "wide interval {r:?}");
+    }
+    assert_eq!(seg[1][4], "short_count");
+    assert_eq!(seg[2][4], "estimated");
+    // Without a study year and without counters the run cannot choose a year: exit 2.
+    s.remove("study.toml");
+    std::fs::remove_dir_all(s.out()).unwrap();
+    assert_fatal(&s, "year");
+}
