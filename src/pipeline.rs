@@ -232,6 +232,7 @@ pub fn calibrate(
                 hours: s.hours.clone(),
                 aadt: s.aadt_value,
                 year: s.aadt.year,
+                k30_and_peak_share: s.design.as_ref().map(|d| d.k30).zip(s.daily_peak_share),
             }
         })
         .collect();

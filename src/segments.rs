@@ -374,12 +374,20 @@ pub fn assemble(
                     let s = (cv_r * cv_r * (1.0 + 1.0 / ratio.n.max(1) as f64)
                         + 0.01 / peak_days as f64)
                         .sqrt();
-                    let k = ratio.mean * share;
+                    let own = ratio.mean * share;
+                    let (k, s, source) = match group.k30.as_ref().filter(|g| g.n >= 2) {
+                        Some(g) => {
+                            let (k, s) =
+                                crate::expansion::calibration::shrink_k(own, s, g.mean, g.cv);
+                            (k, s, "short_count+group")
+                        }
+                        None => (own, s, "short_count"),
+                    };
                     row.k = Some(Sourced {
                         value: k,
                         lo95: k * (-Z95 * s).exp(),
                         hi95: k * (Z95 * s).exp(),
-                        source: "short_count".into(),
+                        source: source.into(),
                     });
                 }
                 let ds: Vec<f64> = counts.iter().filter_map(|x| x.peak_d).collect();

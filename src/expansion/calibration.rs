@@ -40,6 +40,8 @@ pub struct CalibrationStation {
     pub aadt: f64,
     /// Calendar year of its days.
     pub year: i32,
+    /// Its K30 and mean working-day peak-hour share, for checking short-count K estimates.
+    pub k30_and_peak_share: Option<(f64, f64)>,
 }
 
 /// One trial: a simulated short count.
@@ -55,6 +57,11 @@ pub struct Trial {
     pub log_sd: f64,
     /// The station's AADT.
     pub truth: f64,
+    /// K estimated from the window's own working-day peak hours and the other stations'
+    /// K30 / peak-share ratio, with the station's own K30: (estimate, truth).
+    pub k: Option<(f64, f64)>,
+    /// The other stations' mean K30 (the group value a segment without this method would get).
+    pub k_group: Option<f64>,
 }
 
 impl Trial {
@@ -84,6 +91,11 @@ pub struct CalibrationRow {
     pub p90_ape: f64,
     /// Share of trials whose 95 % interval (out-of-sample scale) covers the true AADT.
     pub coverage: f64,
+    /// Median absolute percentage error of the K estimated from the window's own peak hours
+    /// against the counter's K30, percent (trials with a complete working day).
+    pub k_median_ape: Option<f64>,
+    /// The same for the group's mean K30, over the same trials: the baseline.
+    pub k_group_median_ape: Option<f64>,
 }
 
 /// The calibration's result.
@@ -159,6 +171,11 @@ pub fn calibrate(
                 continue;
             }
             let mut apes: Vec<f64> = idx.iter().map(|&i| trials[i].ape()).collect();
+            let mut k_apes: Vec<f64> = idx
+                .iter()
+                .filter_map(|&i| trials[i].k)
+                .map(|(e, t)| 100.0 * (e - t).abs() / t)
+                .collect();
             rows.push(CalibrationRow {
                 hours: h,
                 class_group: g,
@@ -166,6 +183,15 @@ pub fn calibrate(
                 median_ape: quantile(&mut apes, 0.5),
                 p90_ape: quantile(&mut apes, 0.9),
                 coverage: idx.iter().filter(|&&i| covered[i]).count() as f64 / idx.len() as f64,
+                k_median_ape: (!k_apes.is_empty()).then(|| quantile(&mut k_apes, 0.5)),
+                k_group_median_ape: {
+                    let mut g: Vec<f64> = idx
+                        .iter()
+                        .filter_map(|&i| Some((trials[i].k?.1, trials[i].k_group?)))
+                        .map(|(t, g)| 100.0 * (g - t).abs() / t)
+                        .collect();
+                    (!g.is_empty()).then(|| quantile(&mut g, 0.5))
+                },
             });
         }
     }
@@ -219,6 +245,27 @@ fn trials_for(
         return Vec::new();
     }
     let factors = make_factors(&others);
+    let ratios: Vec<f64> = others
+        .iter()
+        .filter_map(|&o| stations[o].k30_and_peak_share)
+        .filter(|(_, p)| *p > 0.0)
+        .map(|(k, p)| k / p)
+        .collect();
+    let ratio = (!ratios.is_empty()).then(|| ratios.iter().sum::<f64>() / ratios.len() as f64);
+    let k_others: Vec<f64> = others
+        .iter()
+        .filter_map(|&o| stations[o].k30_and_peak_share.map(|x| x.0))
+        .collect();
+    let k_group =
+        (!k_others.is_empty()).then(|| k_others.iter().sum::<f64>() / k_others.len() as f64);
+    let cv_of = |v: &[f64]| {
+        (v.len() >= 2).then(|| {
+            let m = v.iter().sum::<f64>() / v.len() as f64;
+            (v.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (v.len() - 1) as f64).sqrt() / m
+        })
+    };
+    let k_group_cv = cv_of(&k_others);
+    let ratio_cv = cv_of(&ratios);
     let mut out = Vec::new();
     for &len in &params.calibration_hours {
         let len_us = len as usize;
@@ -237,17 +284,65 @@ fn trials_for(
                 year: me.year,
             };
             if let Ok(e) = expand(&count, &factors, Growth::NONE, params) {
+                let k = window_peak_share(&window)
+                    .zip(ratio)
+                    .zip(me.k30_and_peak_share)
+                    .map(|((share, r), (k30, _))| {
+                        let own = r * share;
+                        let est = match (k_group, k_group_cv) {
+                            (Some(g), Some(cv)) => shrink_k(own, ratio_cv.unwrap_or(0.15), g, cv).0,
+                            _ => own,
+                        };
+                        (est, k30)
+                    });
                 out.push(Trial {
                     station: s,
                     hours: len,
                     estimate: e.aadt,
                     log_sd: e.log_sd,
                     truth: me.aadt,
+                    k,
+                    k_group,
                 });
             }
         }
     }
     out
+}
+
+/// Combines a count's own K estimate (log sd `s_own`) with its group's mean K30 (between-
+/// station CV `cv_group`) by inverse-variance weights in log space: an empirical-Bayes
+/// shrinkage that leans on the count where sites of a group differ and on the group where
+/// they do not. Returns (K, log sd).
+pub fn shrink_k(own: f64, s_own: f64, group: f64, cv_group: f64) -> (f64, f64) {
+    let (a, b) = (
+        1.0 / s_own.max(1e-4).powi(2),
+        1.0 / cv_group.max(1e-4).powi(2),
+    );
+    let w = a / (a + b);
+    (
+        (w * own.ln() + (1.0 - w) * group.ln()).exp(),
+        (1.0 / (a + b)).sqrt(),
+    )
+}
+
+/// Mean peak-hour share of the window's complete working days (24 hours of one date).
+fn window_peak_share(window: &[CountHour]) -> Option<f64> {
+    use chrono::Datelike;
+    let mut shares = Vec::new();
+    let mut i = 0;
+    while i < window.len() {
+        let d = window[i].date;
+        let j = i + window[i..].iter().take_while(|h| h.date == d).count();
+        let day = &window[i..j];
+        let total: f64 = day.iter().map(|h| h.volume).sum();
+        if day.len() == 24 && d.weekday().num_days_from_monday() < 5 && total > 0.0 {
+            let peak = day.iter().map(|h| h.volume).fold(0.0, f64::max);
+            shares.push(peak / total);
+        }
+        i = j;
+    }
+    (!shares.is_empty()).then(|| shares.iter().sum::<f64>() / shares.len() as f64)
 }
 
 /// Start indices whose next `len` hours are consecutive.
@@ -302,6 +397,7 @@ mod tests {
                 .collect(),
             aadt: v,
             year: 2025,
+            k30_and_peak_share: None,
         };
         let stations = vec![mk("a", 1000.0), mk("b", 2000.0), mk("c", 3000.0)];
         let flat = |_: &[usize]| GroupFactors {

@@ -452,6 +452,8 @@ pub fn calibration_table(cal: &Calibration) -> Table {
             col("p90_ape_pct", "%", Format::Decimal(2)),
             col("coverage95", "share", Format::Share),
             col("interval_scale", "factor", Format::Decimal(3)),
+            col("k_median_ape_pct", "%", Format::Decimal(2)),
+            col("k_group_median_ape_pct", "%", Format::Decimal(2)),
         ],
     );
     for r in &cal.rows {
@@ -463,6 +465,8 @@ pub fn calibration_table(cal: &Calibration) -> Table {
             Cell::from(r.p90_ape),
             Cell::from(r.coverage),
             opt(cal.scales.get(&r.hours).copied()),
+            opt(r.k_median_ape),
+            opt(r.k_group_median_ape),
         ]);
     }
     t
