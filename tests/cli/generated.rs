@@ -206,15 +206,6 @@ fn expansion_is_close_to_expansion_with_the_true_factors() {
                 })
                 .sum::<f64>()
                 / c.periods.len() as f64;
-            if std::env::var("RT_DEBUG").is_ok() {
-                let g = &r.factors.groups[r.factors.segment_group[c.segment]].name;
-                eprintln!(
-                    "{seed} {seg} {pattern} {g} ours {:+.1} oracle {:+.1} periods {:?}",
-                    100.0 * (c.expanded.aadt / true_aadt - 1.0),
-                    100.0 * (est_true / true_aadt - 1.0),
-                    c.periods.iter().map(|p| p.parts.len()).collect::<Vec<_>>()
-                );
-            }
             ours.push((c.expanded.aadt - true_aadt).abs() / true_aadt);
             oracle.push((est_true - true_aadt).abs() / true_aadt);
         }
