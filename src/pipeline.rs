@@ -240,12 +240,8 @@ pub fn calibrate(
     let make = |idx: &[usize]| {
         let sel: Vec<&crate::continuous::stage::StationStats> =
             idx.iter().map(|&i| usable[i]).collect();
-        crate::factors::stage::group_factors(&sel, how).unwrap_or(crate::expansion::GroupFactors {
-            dow_month: [[1.0; 12]; 7],
-            dow_month_cv: [[None; 12]; 7],
-            day_cv: None,
-            stations: 0,
-        })
+        crate::factors::stage::group_factors(&sel, how)
+            .unwrap_or_else(|| crate::expansion::GroupFactors::flat(None, 0))
     };
     crate::expansion::calibration::calibrate(&stations, &make, params)
 }

@@ -198,7 +198,8 @@ fn station_stats(
         }
         let follows_day = last_date.is_some_and(|p| p.succ_opt() == Some(day.date));
         last_date = Some(day.date);
-        let classified = complete_classes(day, oneway, &excl).is_some();
+        let day_classes = complete_classes(day, oneway, &excl);
+        let classified = day_classes.is_some();
         for (k, h) in day.day_hours().enumerate() {
             let (total, f, r) = hs[k];
             let (fwd, rev) = match (f, r) {
@@ -246,7 +247,7 @@ fn station_stats(
                 }
             }
         }
-        if let Some(c) = complete_classes(day, oneway, &excl) {
+        if let Some(c) = day_classes {
             let mut by_class = [0.0; 13];
             for (o, v) in by_class.iter_mut().zip(c) {
                 *o = v as f64;

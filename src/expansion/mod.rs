@@ -102,6 +102,16 @@ pub struct GroupFactors {
 }
 
 impl GroupFactors {
+    /// A flat pattern: every cell 1, with the given CV per cell, behind `stations` counters.
+    pub fn flat(cv: Option<f64>, stations: usize) -> GroupFactors {
+        GroupFactors {
+            dow_month: [[1.0; 12]; 7],
+            dow_month_cv: [[cv; 12]; 7],
+            day_cv: None,
+            stations,
+        }
+    }
+
     /// The factor for a date.
     pub fn factor(&self, date: NaiveDate) -> f64 {
         self.dow_month[date.weekday().num_days_from_monday() as usize][date.month0() as usize]

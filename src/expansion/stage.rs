@@ -216,15 +216,13 @@ pub fn run(
             let last = days.last().map(|d| d.date).expect("a year has days");
             // With no usable permanent counter anywhere, counts are published unfactored
             // (factor 1) with a wide factor CV, and the table says so.
-            let unfactored = GroupFactors {
-                dow_month: [[1.0; 12]; 7],
-                dow_month_cv: [[Some(UNFACTORED_CV); 12]; 7],
-                day_cv: None,
-                stations: 1,
-            };
+            let unfactored;
             let gf = match group.factors.as_ref() {
                 Some(gf) => gf,
-                None if factors.groups.iter().all(|g| g.factors.is_none()) => &unfactored,
+                None if factors.groups.iter().all(|g| g.factors.is_none()) => {
+                    unfactored = GroupFactors::flat(Some(UNFACTORED_CV), 1);
+                    &unfactored
+                }
                 None => {
                     out.unexpanded.push((
                         s,

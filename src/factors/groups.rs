@@ -54,14 +54,8 @@ use super::precision::{
 use super::FactorError;
 use crate::continuous::{AxleSample, StationFactors};
 
-/// Urban or rural area, as in `segments.csv`.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
-pub enum Area {
-    /// Urban.
-    Urban,
-    /// Rural.
-    Rural,
-}
+/// Urban or rural area: the network model's own type.
+pub use crate::model::Area;
 
 /// A station's factor profile: 12 monthly + 7 day-of-week factors.
 #[derive(Debug, Clone, PartialEq)]

@@ -22,7 +22,7 @@ use std::collections::BTreeMap;
 
 use serde::{Deserialize, Serialize};
 
-use super::groups::{rule_group, Area as GroupArea, FactorProfile, RuleGroup, RuleGroupParams};
+use super::groups::{rule_group, FactorProfile, RuleGroup, RuleGroupParams};
 use super::growth::{growth_with_fallback, GrowthFit, GrowthObservation, NO_HISTORY_SLOPE_SE};
 use super::precision::FactorStats;
 use super::{cluster_profiles, ClusterParams, Clustering, GroupSummary};
@@ -204,24 +204,12 @@ impl FactorOutput {
     }
 }
 
-fn group_area(a: Area) -> GroupArea {
-    match a {
-        Area::Urban => GroupArea::Urban,
-        Area::Rural => GroupArea::Rural,
-    }
-}
-
 /// Cell-wise mean and between-station CV of several counters' 7 x 12 factor tables.
 fn average_tables(f: &[[[f64; 12]; 7]]) -> Option<GroupFactors> {
     if f.is_empty() {
         return None;
     }
-    let mut out = GroupFactors {
-        dow_month: [[1.0; 12]; 7],
-        dow_month_cv: [[None; 12]; 7],
-        day_cv: None,
-        stations: f.len(),
-    };
+    let mut out = GroupFactors::flat(None, f.len());
     for i in 0..7 {
         for j in 0..12 {
             let v: Vec<f64> = f.iter().map(|x| x[i][j]).collect();
@@ -270,7 +258,7 @@ pub fn default_assignment(
     let mut rows = Vec::new();
     for fc in 1..=7u8 {
         for area in [Area::Urban, Area::Rural] {
-            let g = rule_group(fc, group_area(area), None, &params.rule).expect("valid class");
+            let g = rule_group(fc, area, None, &params.rule).expect("valid class");
             rows.push(AssignmentRow {
                 route: None,
                 functional_class: Some(fc),
@@ -347,7 +335,7 @@ pub fn run(
         });
         let g = rule_group(
             seg.functional_class.code(),
-            group_area(seg.area),
+            seg.area,
             profile.as_ref(),
             &params.rule,
         )

@@ -4,7 +4,8 @@
 use std::collections::BTreeMap;
 
 use super::report::{MapSegment, ReportData, Series};
-use super::table::{Cell, Column, Format, Table};
+use super::table::{Cell, Format, Table};
+use super::tables::col;
 use super::xlsx::CoverSheet;
 use crate::design::stage::DesignRow;
 use crate::input::StudyData;
@@ -15,10 +16,6 @@ use crate::totals::Total;
 pub const CAUTION: &str = "Every figure here is an estimate with a stated uncertainty (its 95 % interval). \
 Pavement and capacity design follows local codes and a licensed engineer's judgement; these figures are \
 inputs to that judgement, not a substitute for it.";
-
-fn col(name: &str, unit: &'static str, format: Format) -> Column {
-    Column::new(name, unit, format)
-}
 
 /// `design_inputs.csv`: pavement and capacity inputs per segment.
 pub fn design_table(data: &StudyData, rows: &[DesignRow], design_years: u32) -> Table {

@@ -38,7 +38,8 @@ use crate::qc::QcOutput;
 use crate::segments::{SegmentRow, Sourced};
 use crate::spatial::stage::{Interval, SpatialOutput};
 
-fn col(name: &str, unit: &'static str, format: Format) -> Column {
+/// A column; shorthand for [`Column::new`] in the table builders.
+pub(crate) fn col(name: &str, unit: &'static str, format: Format) -> Column {
     Column::new(name, unit, format)
 }
 
