@@ -259,15 +259,11 @@ pub fn run(
         .par_iter()
         .enumerate()
         .map(|(si, days)| {
-            let (mut f, n) = check_station(si, days, oneway(si), params);
             let short = stations
                 .stations
                 .get(si)
                 .is_some_and(|s| s.kind == crate::model::StationKind::Short);
-            if short {
-                soften_edge_days(&mut f, days);
-            }
-            (f, n)
+            check_station(si, days, oneway(si), short, params)
         })
         .collect();
     let mut findings = Vec::new();
@@ -316,28 +312,24 @@ pub fn run(
 }
 
 /// A short count starts and ends part-way through a day: its first and last days are
-/// incomplete by design, not by fault. Their `incomplete` finding is flagged, not rejected, so
-/// their hours still enter the count's consecutive 24-hour periods (see `expansion`).
-/// A gap inside a count is still rejected.
-fn soften_edge_days(findings: &mut [QcFinding], days: &BTreeMap<NaiveDate, DayCounts>) {
-    for f in findings.iter_mut() {
-        if f.rule != QcRule::Incomplete {
-            continue;
-        }
-        let has = |d: Option<NaiveDate>| {
-            d.and_then(|d| days.get(&d))
-                .is_some_and(|day| day.dir(f.direction).is_some())
-        };
-        let first = !has(f.date.pred_opt());
-        let last = !has(f.date.succ_opt());
-        if first || last {
-            f.action = QcAction::Flagged;
-            f.detail = format!(
-                "partial {} day of a short count (hours used in 24-hour periods): {}",
-                if first { "first" } else { "last" },
-                f.detail
-            );
-        }
+/// incomplete by design, not by fault, so their `incomplete` finding is flagged, not rejected,
+/// and their hours still enter the count's consecutive 24-hour periods (see `expansion`).
+/// Returns "first" or "last" for such a day; a gap inside a count is no edge.
+fn count_edge(
+    days: &BTreeMap<NaiveDate, DayCounts>,
+    date: NaiveDate,
+    d: Direction,
+) -> Option<&'static str> {
+    let has = |x: Option<NaiveDate>| {
+        x.and_then(|x| days.get(&x))
+            .is_some_and(|day| day.dir(d).is_some())
+    };
+    if !has(date.pred_opt()) {
+        Some("first")
+    } else if !has(date.succ_opt()) {
+        Some("last")
+    } else {
+        None
     }
 }
 
@@ -346,6 +338,7 @@ pub(crate) fn check_station(
     station: usize,
     days: &BTreeMap<NaiveDate, DayCounts>,
     oneway: bool,
+    short: bool,
     p: &QcParams,
 ) -> (Vec<QcFinding>, usize) {
     let mut out = Vec::new();
@@ -361,18 +354,29 @@ pub(crate) fn check_station(
             let s = series(day, dd);
             if s.coverage + 1e-9 < p.min_coverage {
                 let n = s.values.len();
+                let edge = if short {
+                    count_edge(days, *date, d)
+                } else {
+                    None
+                };
+                let detail = format!(
+                        "{:.1} % of the {n} hours of the local day covered by {} figures (needs {:.1} %)",
+                        s.coverage * 100.0,
+                        if s.measure == Measure::Vehicles { "vehicle" } else { "axle" },
+                        p.min_coverage * 100.0
+                    );
                 out.push(QcFinding {
                     station,
                     direction: d,
                     date: *date,
                     rule: QcRule::Incomplete,
-                    action: QcAction::Rejected,
-                    detail: format!(
-                        "{:.1} % of the {n} hours of the local day covered by {} figures (needs {:.1} %)",
-                        s.coverage * 100.0,
-                        if s.measure == Measure::Vehicles { "vehicle" } else { "axle" },
-                        p.min_coverage * 100.0
-                    ),
+                    action: if edge.is_some() { QcAction::Flagged } else { QcAction::Rejected },
+                    detail: match edge {
+                        Some(which) => format!(
+                            "partial {which} day of a short count (hours used in 24-hour periods): {detail}"
+                        ),
+                        None => detail,
+                    },
                 });
                 continue;
             }

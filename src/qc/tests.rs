@@ -155,7 +155,7 @@ fn run_with(
     edit: impl FnMut(usize, NaiveDate, &mut [Vec<u32>; 2]) -> Option<Vec<Option<u32>>>,
 ) -> (Vec<QcFinding>, NaiveDate) {
     let days = station(70, 7, 8000.0, edit);
-    let (f, _) = check_station(0, &days, false, &QcParams::default());
+    let (f, _) = check_station(0, &days, false, false, &QcParams::default());
     (f, date0() + chrono::Duration::days(FAULT_DAY as i64))
 }
 
@@ -370,7 +370,7 @@ fn clock_change_days_of_23_and_25_hours_are_complete() {
     let fall = date0() + chrono::Duration::days(27);
     assert_eq!(days[&spring].day_hours().len(), 23);
     assert_eq!(days[&fall].day_hours().len(), 25);
-    let (f, n) = check_station(0, &days, false, &QcParams::default());
+    let (f, n) = check_station(0, &days, false, false, &QcParams::default());
     assert_eq!(n, 80);
     for d in [spring, fall] {
         let on = findings_on(&f, d);
@@ -389,7 +389,7 @@ fn low_volume_night_zeros_and_repeats_do_not_fire() {
         })
         .count();
     assert!(night_zeros > 10, "fixture should have night zeros");
-    let (f, _) = check_station(0, &days, false, &QcParams::default());
+    let (f, _) = check_station(0, &days, false, false, &QcParams::default());
     assert!(
         !f.iter()
             .any(|x| matches!(x.rule, QcRule::ZeroRun | QcRule::FlatRun)),
@@ -417,7 +417,7 @@ fn short_count_without_profile_uses_neighbouring_hours() {
             ],
         ),
     );
-    let (f, _) = check_station(0, &days, false, &QcParams::default());
+    let (f, _) = check_station(0, &days, false, false, &QcParams::default());
     assert!(f
         .iter()
         .any(|x| x.rule == QcRule::Spike && x.direction == Direction::Fwd));
@@ -433,7 +433,7 @@ fn short_count_without_profile_uses_neighbouring_hours() {
             &[(Direction::Fwd, full(&v[0])), (Direction::Rev, full(&v[1]))],
         ),
     );
-    let (f, _) = check_station(0, &days, false, &QcParams::default());
+    let (f, _) = check_station(0, &days, false, false, &QcParams::default());
     assert!(f.is_empty(), "{f:?}");
 }
 
@@ -455,7 +455,7 @@ fn class_mismatch_flags_an_implausible_mix_only() {
         dd.classes = c;
         days.insert(date, day);
     }
-    let (f, _) = check_station(0, &days, true, &QcParams::default());
+    let (f, _) = check_station(0, &days, true, false, &QcParams::default());
     let hits: Vec<_> = f
         .iter()
         .filter(|x| x.rule == QcRule::ClassMismatch)
@@ -548,7 +548,7 @@ fn caught_share_at(fault: Fault, seed: u64, daily: f64, hard: bool) -> (f64, f64
         }
         None
     });
-    let (f, _) = check_station(0, &days, false, &QcParams::default());
+    let (f, _) = check_station(0, &days, false, false, &QcParams::default());
     let mut caught = 0;
     let mut rejected = 0;
     let mut total = 0;
@@ -582,7 +582,7 @@ fn clean_days_are_rarely_rejected() {
     let mut total = 0;
     for (seed, daily) in [(21, 8000.0), (22, 2000.0), (23, 400.0)] {
         let days = station(200, seed, daily, |_, _, _| None);
-        let (f, n) = check_station(0, &days, false, &QcParams::default());
+        let (f, n) = check_station(0, &days, false, false, &QcParams::default());
         let r: HashSet<(NaiveDate, Direction)> = f
             .iter()
             .filter(|x| x.action == QcAction::Rejected)
@@ -829,7 +829,7 @@ fn single_day_short_counts_are_rarely_rejected() {
                     &[(Direction::Fwd, full(&v[0])), (Direction::Rev, full(&v[1]))],
                 ),
             );
-            let (f, _) = check_station(0, &days, false, &QcParams::default());
+            let (f, _) = check_station(0, &days, false, false, &QcParams::default());
             let r: HashSet<Direction> = f
                 .iter()
                 .filter(|x| x.action == QcAction::Rejected)
@@ -859,7 +859,7 @@ fn three_day_short_counts_are_rarely_rejected() {
                 );
                 days.insert(date, d);
             }
-            let (f, n) = check_station(0, &days, false, &QcParams::default());
+            let (f, n) = check_station(0, &days, false, false, &QcParams::default());
             let r: HashSet<(NaiveDate, Direction)> = f
                 .iter()
                 .filter(|x| x.action == QcAction::Rejected)
@@ -926,7 +926,7 @@ fn faults_on_three_day_short_counts_are_caught() {
                 );
                 days.insert(date, d);
             }
-            let (f, _) = check_station(0, &days, false, &QcParams::default());
+            let (f, _) = check_station(0, &days, false, false, &QcParams::default());
             if f.iter().any(|x| {
                 x.date == wed && x.direction == Direction::Fwd && x.action == QcAction::Rejected
             }) {
@@ -952,7 +952,7 @@ fn seasonal_level_changes_are_not_faults() {
         );
         days.insert(date, d);
     }
-    let (f, n) = check_station(0, &days, false, &QcParams::default());
+    let (f, n) = check_station(0, &days, false, false, &QcParams::default());
     let rejected = f.iter().filter(|x| x.action == QcAction::Rejected).count();
     let flagged = f
         .iter()
