@@ -370,7 +370,8 @@ mod tests {
     use approx::assert_relative_eq;
     use chrono::NaiveDate;
 
-    /// NumPy's default (linear) percentile: np.percentile([1,2,3,4], 90) = 3.7.
+    /// NumPy's default (linear, Hyndman & Fan type 7) percentile: np.percentile([1,2,3,4], 90)
+    /// = 3.7 (from memory; by hand: 1 + 0.9 × 3 = 3.7th order position, 3 + 0.7 × 1).
     #[test]
     fn quantile_matches_numpy_linear() {
         assert_relative_eq!(
