@@ -1,6 +1,7 @@
 //! roadtally: annual traffic statistics for every segment of a road network.
 //!
-//! The pipeline, in the order [`pipeline::run`] drives it:
+//! The pipeline, in the order [`pipeline::compute`] runs it ([`output::write_all`] then writes
+//! the results):
 //!
 //! 1. [`input`] reads the study folder (network, stations, counts, history, toll) into
 //!    typed records and per station-day summaries, logging every rejected row.

@@ -60,7 +60,8 @@ fn dispatch(cli: &Cli) -> anyhow::Result<u8> {
         }
         Command::Run { study, out, year } => {
             let config = Config::new(study, Some(out), *year, cli.quiet)?;
-            let report = pipeline::run(&config)?;
+            let results = pipeline::compute(&config)?;
+            let report = roadtally::output::write_all(&results, &config.settings, out)?;
             if !cli.quiet {
                 print!("{}", report.check);
                 let q = &report.qc;

@@ -1,12 +1,13 @@
-//! The only place that knows the order of the stages.
+//! The only place that knows the order of the stages: [`compute`] runs them and returns
+//! their [`Results`]; it writes nothing (writing is [`crate::output`]'s, which takes the
+//! results).
 
 use std::collections::BTreeMap;
 use std::fmt;
-use std::path::PathBuf;
 
 use crate::config::Config;
-use crate::input::{self, FileSummary, InputError, StudyData};
-use crate::output::{self, csv_out, tables, OutputError};
+use crate::input::{self, InputError};
+use crate::model::{FileSummary, StudyData};
 use crate::progress::Progress;
 
 /// Why a run could not finish (exit code 2).
@@ -15,12 +16,6 @@ pub enum PipelineError {
     /// Reading failed.
     #[error(transparent)]
     Input(#[from] InputError),
-    /// Writing failed.
-    #[error(transparent)]
-    Output(#[from] OutputError),
-    /// `run` was called without an output folder.
-    #[error("no output folder given (use --out <dir>)")]
-    NoOutput,
     /// No study year: none in study.toml and no permanent-counter record.
     #[error("study.toml: no `year` given and no permanent-counter record to take it from")]
     NoYear,
@@ -72,7 +67,8 @@ fn reason_key(reason: &str) -> String {
         .to_string()
 }
 
-fn report(data: &StudyData, year: Option<i32>) -> CheckReport {
+/// The reading summary of a study read for `year`.
+pub fn check_report(data: &StudyData, year: Option<i32>) -> CheckReport {
     let mut by_reason = BTreeMap::new();
     for r in &data.rejected {
         *by_reason.entry(reason_key(&r.reason)).or_insert(0) += 1;
@@ -101,26 +97,7 @@ pub fn check(config: &Config) -> Result<CheckReport, PipelineError> {
     let progress = Progress::new(config.quiet);
     let data = input::read_study(&config.study, &progress)?;
     let year = study_year(config, &data);
-    Ok(report(&data, year))
-}
-
-/// What a run wrote and found.
-#[derive(Debug, Clone)]
-pub struct RunReport {
-    /// The reading summary.
-    pub check: CheckReport,
-    /// Quality-control summary.
-    pub qc: crate::qc::QcSummary,
-    /// Files written.
-    pub written: Vec<PathBuf>,
-    /// Segments by basis: continuous, short_count, estimated.
-    pub basis_counts: [usize; 3],
-    /// The calibration table and cross-validation table, for the terminal summary.
-    pub calibration: output::Table,
-    /// Cross-validation table.
-    pub cross_validation: output::Table,
-    /// Network daily VKT with its 95 % interval (segments independent).
-    pub network_vkt: Option<(f64, f64, f64)>,
+    Ok(check_report(&data, year))
 }
 
 /// Every stage's output, for writers and tests.
@@ -241,141 +218,9 @@ pub fn calibrate(
         let sel: Vec<&crate::continuous::stage::StationStats> =
             idx.iter().map(|&i| usable[i]).collect();
         crate::factors::stage::group_factors(&sel, how)
-            .unwrap_or_else(|| crate::expansion::GroupFactors::flat(None, 0))
+            .unwrap_or_else(|| crate::factors::GroupFactors::flat(None, 0))
     };
     crate::expansion::calibration::calibrate(&stations, &make, params)
-}
-
-/// Runs the whole pipeline and writes the outputs.
-pub fn run(config: &Config) -> Result<RunReport, PipelineError> {
-    let out = config.out.clone().ok_or(PipelineError::NoOutput)?;
-    let r = compute(config)?;
-    let check = report(&r.data, Some(r.year));
-    let data = &r.data;
-    let seg_table = tables::segment_statistics(data, &r.segments);
-    let calibration = tables::calibration_table(&r.calibration);
-    let cross_validation = tables::cross_validation(data, &r.spatial);
-    let all = [
-        seg_table,
-        tables::station_statistics(data, &r.continuous, &r.factors),
-        tables::hourly_distribution(data, &r.continuous),
-        tables::ranked_hours(data, &r.continuous),
-        tables::factors_table(&r.factors, config.settings.factors.target_precision),
-        tables::factor_groups(data, &r.factors),
-        tables::short_counts(data, &r.expansion),
-        calibration.clone(),
-        cross_validation.clone(),
-        tables::spatial_model(&r.spatial),
-        tables::qc_log(data, &r.qc),
-        tables::network_findings(&r.qc),
-        tables::rejected_rows(&data.rejected),
-    ];
-    let mut all = all.to_vec();
-    if let Some(toll) = &r.toll {
-        all.push(tables::toll_reconciliation(
-            data,
-            toll,
-            &config.settings.toll,
-        ));
-        let ok: Vec<crate::toll::reconcile::ReconciliationRow> =
-            toll.iter().filter_map(|t| t.result.clone().ok()).collect();
-        let months = crate::toll::reconcile::summarise_by_month(&ok);
-        let keys: Vec<(String, String)> = months
-            .iter()
-            .map(|m| {
-                (
-                    format!("{}-{:02}", m.year, m.month),
-                    m.group.as_str().to_string(),
-                )
-            })
-            .collect();
-        let totals: Vec<_> = months.iter().map(|m| m.totals.clone()).collect();
-        all.push(tables::toll_summary(
-            "toll_by_month",
-            "Toll reconciliation per month",
-            &keys,
-            &totals,
-        ));
-        let segs = crate::toll::reconcile::summarise_by_segment(&ok);
-        let keys: Vec<(String, String)> = segs
-            .iter()
-            .map(|m| (m.segment.0.clone(), m.group.as_str().to_string()))
-            .collect();
-        let totals: Vec<_> = segs.iter().map(|m| m.totals.clone()).collect();
-        all.push(tables::toll_summary(
-            "toll_by_segment",
-            "Toll reconciliation per segment",
-            &keys,
-            &totals,
-        ));
-    }
-    let days = if chrono::NaiveDate::from_ymd_opt(r.year, 2, 29).is_some() {
-        366.0
-    } else {
-        365.0
-    };
-    all.push(output::publish::design_table(
-        data,
-        &r.design,
-        config.settings.design.design_years,
-    ));
-    all.push(output::publish::totals_table(&r.totals, days));
-    output::ensure_dir(&out)?;
-    let mut written = Vec::new();
-    for t in &all {
-        written.push(csv_out::write(&out, t)?);
-    }
-    let fdir = out.join("factors");
-    output::ensure_dir(&fdir)?;
-    written.push(csv_out::write(
-        &fdir,
-        &tables::group_assignment(&r.factors),
-    )?);
-    let by_name: std::collections::BTreeMap<String, output::Table> =
-        all.iter().map(|t| (t.name.clone(), t.clone())).collect();
-    let refs: Vec<&output::Table> = all.iter().collect();
-    let cover = output::publish::cover(&r, check.rows_read());
-    written.push(output::xlsx::write_workbook(
-        &out,
-        "roadtally.xlsx",
-        &cover,
-        &refs,
-    )?);
-    written.push(output::geojson_out::write_segments_geojson(
-        &out,
-        "segments.geojson",
-        &data.network,
-        &by_name["segment_statistics"],
-        "segment_id",
-    )?);
-    let report = output::publish::report_data(&r, &by_name);
-    written.push(output::report::write_report(&out, "report.html", &report)?);
-    let names: Vec<String> = written
-        .iter()
-        .map(|p| input::rejects::relative_name(&out, p))
-        .collect();
-    let manifest = output::publish::manifest(data, &config.settings, r.year, &names);
-    written.push(output::write_atomic(&out, "run_manifest.json", &manifest)?);
-    let mut basis_counts = [0; 3];
-    for s in &r.segments {
-        basis_counts[s.basis as usize] += 1;
-    }
-    Ok(RunReport {
-        check,
-        qc: r.qc.summary.clone(),
-        written,
-        basis_counts,
-        calibration,
-        cross_validation,
-        network_vkt: r
-            .totals
-            .iter()
-            .find(|t| t.functional_class == 0 && t.area == "all" && t.vehicles == "all")
-            .map(|t| {
-                let (lo, hi) = t.interval();
-                (t.daily_vkt, lo, hi)
-            }),
-    })
 }
 
 impl fmt::Display for CheckReport {

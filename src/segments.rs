@@ -7,7 +7,7 @@ use crate::expansion::stage::ExpansionOutput;
 use crate::expansion::Z95;
 use crate::factors::precision::FactorStats;
 use crate::factors::stage::FactorOutput;
-use crate::input::StudyData;
+use crate::model::StudyData;
 use crate::spatial::stage::{Interval, Observation, SpatialOutput};
 
 /// Where a segment's AADT comes from.

@@ -15,7 +15,7 @@
 //! vehicle-km per day, and per year.
 
 use crate::expansion::Z95;
-use crate::input::StudyData;
+use crate::model::StudyData;
 use crate::segments::SegmentRow;
 
 /// One total with both intervals.

@@ -23,9 +23,9 @@ use super::{
     class_aadt, compute_aadt, design_hour, hourly_distribution, AadtResult, AxleSample, ClassAadt,
     ClassDay, DayVolume, DesignHour, HourVolume, HourlyDistribution, SufficiencyRule,
 };
-use crate::expansion::CountHour;
-use crate::input::StudyData;
 use crate::model::views::{complete_classes, complete_hours, DayFilter, Measured};
+use crate::model::CountHour;
+use crate::model::StudyData;
 use crate::model::{DayCounts, Direction, StationKind};
 
 /// Settings of the permanent-counter stage (`[continuous]` in study.toml).

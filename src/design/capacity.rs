@@ -18,8 +18,8 @@
 //! - TRB, *Highway Capacity Manual*, 6th ed., 2016 (defaults from memory; references §3.2).
 //! - AASHTO, *A Policy on Geometric Design of Highways and Streets*, ch. 2 (K, D, DHV).
 
-use super::tables::{Facility, HcmDefaults};
 use super::{check_range, DesignError};
+use crate::model::design_tables::{Facility, HcmDefaults};
 use crate::model::Area;
 
 /// Where a peak hour factor came from.

@@ -29,54 +29,28 @@
 //!   (references §4).
 
 pub mod capacity;
+pub mod load_equivalency;
 pub mod pavement;
 pub mod stage;
-pub mod tables;
 
 pub use capacity::{capacity_inputs, CapacityData, CapacityInputs, HvSource, PhfSource};
+pub use load_equivalency::{
+    lef_flexible, lef_rigid, truck_factor_flexible, truck_factor_rigid, AxleType,
+};
 pub use pavement::{
     growth_factor, pavement_inputs, HeavyMix, PavementInputs, PavementType, SegmentDesignInput,
 };
-pub use tables::{
-    lef_flexible, lef_rigid, load_hcm_defaults, load_lane_distribution, load_truck_factors,
-    truck_factor_flexible, truck_factor_rigid, write_hcm_defaults, write_lane_distribution,
-    write_truck_factors, AxleType, Facility, HcmDefault, HcmDefaults, LaneDistribution,
-    LaneDistributionRow, LoadEquivalency, TruckFactorRow,
+// The default tables are records (model); re-exported here where designers look for them.
+pub use crate::model::design_tables::{
+    DesignTables, Facility, HcmDefault, HcmDefaults, LaneDistribution, LaneDistributionRow,
+    LoadEquivalency, TruckFactorRow,
 };
-
-use std::path::PathBuf;
 
 use thiserror::Error;
 
-/// Errors of the design-input maths and of its factor tables.
+/// Errors of the design-input maths.
 #[derive(Debug, Error)]
 pub enum DesignError {
-    /// A factor-table file could not be opened, read or written.
-    #[error("{path}: {source}")]
-    Io {
-        /// The file.
-        path: PathBuf,
-        /// The underlying error.
-        source: std::io::Error,
-    },
-    /// A factor-table file is not the expected CSV.
-    #[error("{path}, line {line}: {message}")]
-    Csv {
-        /// The file.
-        path: PathBuf,
-        /// Line number, the header being line 1 (0 when unknown).
-        line: u64,
-        /// What is wrong and what to fix.
-        message: String,
-    },
-    /// A table is incomplete or inconsistent.
-    #[error("{path}: {message}")]
-    Table {
-        /// The file (empty for a table built in code).
-        path: PathBuf,
-        /// What is wrong and what to fix.
-        message: String,
-    },
     /// An input value is out of its domain.
     #[error("{name} = {value} is not valid: {expected}")]
     BadInput {

@@ -38,8 +38,8 @@
 //!   Design*, 2nd ed., 2004, ch. 6 (from memory).
 //! - `references.md` §4 (class groups SU 4–7, CU 8–13), §5.1, §5.3, §5.4.
 
-use super::tables::{LaneDistribution, LoadEquivalency};
 use super::{check_range, DesignError};
+use crate::model::design_tables::{LaneDistribution, LoadEquivalency};
 
 /// Days per year used for annual ESALs.
 pub const DAYS_PER_YEAR: f64 = 365.0;

@@ -8,11 +8,11 @@
 use serde::{Deserialize, Serialize};
 
 use super::{
-    capacity_inputs, pavement_inputs, CapacityData, CapacityInputs, Facility, HcmDefaults,
-    HeavyMix, LaneDistribution, LoadEquivalency, PavementInputs, PavementType, SegmentDesignInput,
+    capacity_inputs, pavement_inputs, CapacityData, CapacityInputs, DesignTables, Facility,
+    HeavyMix, PavementInputs, PavementType, SegmentDesignInput,
 };
 use crate::factors::stage::FactorOutput;
-use crate::input::StudyData;
+use crate::model::StudyData;
 use crate::segments::SegmentRow;
 
 /// Settings of the design stage (`[design]` in study.toml).
@@ -30,27 +30,6 @@ impl Default for DesignParams {
         DesignParams {
             design_years: 20,
             rigid: false,
-        }
-    }
-}
-
-/// The design tables in force.
-#[derive(Debug, Clone)]
-pub struct DesignTables {
-    /// Lane distribution factors.
-    pub lanes: LaneDistribution,
-    /// Truck factors per class.
-    pub trucks: LoadEquivalency,
-    /// HCM defaults.
-    pub hcm: HcmDefaults,
-}
-
-impl Default for DesignTables {
-    fn default() -> Self {
-        DesignTables {
-            lanes: LaneDistribution::aashto_1993(),
-            trucks: LoadEquivalency::defaults(),
-            hcm: HcmDefaults::hcm6(),
         }
     }
 }

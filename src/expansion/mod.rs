@@ -43,7 +43,11 @@
 pub mod calibration;
 pub mod stage;
 
-use chrono::{Datelike, NaiveDate};
+// Defined below this stage (factors, model); re-exported where the expansion maths uses them.
+pub use crate::factors::GroupFactors;
+pub use crate::model::CountHour;
+
+use chrono::NaiveDate;
 use serde::{Deserialize, Serialize};
 
 /// Settings of the expansion stage (`[expansion]` in study.toml).
@@ -88,41 +92,6 @@ impl Default for ExpansionParams {
 /// Normal quantile for a two-sided 95 % interval.
 pub const Z95: f64 = 1.959_963_984_540_054;
 
-/// Factors of one factor group as the expansion needs them.
-#[derive(Debug, Clone, PartialEq)]
-pub struct GroupFactors {
-    /// Day-of-week (Monday = 0) by month (January = 0) factor: AADT / MADW.
-    pub dow_month: [[f64; 12]; 7],
-    /// Between-station CV of each cell's factor (None where fewer than two stations).
-    pub dow_month_cv: [[Option<f64>; 12]; 7],
-    /// Day-to-day CV of a single day about its month-weekday mean, pooled over the group.
-    pub day_cv: Option<f64>,
-    /// Stations behind the factors.
-    pub stations: usize,
-}
-
-impl GroupFactors {
-    /// A flat pattern: every cell 1, with the given CV per cell, behind `stations` counters.
-    pub fn flat(cv: Option<f64>, stations: usize) -> GroupFactors {
-        GroupFactors {
-            dow_month: [[1.0; 12]; 7],
-            dow_month_cv: [[cv; 12]; 7],
-            day_cv: None,
-            stations,
-        }
-    }
-
-    /// The factor for a date.
-    pub fn factor(&self, date: NaiveDate) -> f64 {
-        self.dow_month[date.weekday().num_days_from_monday() as usize][date.month0() as usize]
-    }
-
-    /// The between-station CV for a date's cell.
-    pub fn cv(&self, date: NaiveDate) -> Option<f64> {
-        self.dow_month_cv[date.weekday().num_days_from_monday() as usize][date.month0() as usize]
-    }
-}
-
 /// How the count measured traffic.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Measure {
@@ -155,17 +124,6 @@ impl CountPeriod {
             parts: vec![(date, 1.0)],
         }
     }
-}
-
-/// One clock hour of a short count, in time order.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct CountHour {
-    /// Local date of the hour.
-    pub date: NaiveDate,
-    /// Two-way volume of the hour.
-    pub volume: f64,
-    /// Whether this hour directly follows the previous one (false after a gap).
-    pub follows: bool,
 }
 
 /// Cuts consecutive hours into 24-hour periods (see the module docs).

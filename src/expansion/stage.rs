@@ -17,8 +17,8 @@ use super::{
     ShortCount,
 };
 use crate::factors::stage::FactorOutput;
-use crate::input::StudyData;
 use crate::model::views::{complete_classes, two_way_hour, DayFilter, Measured};
+use crate::model::StudyData;
 use crate::model::{Direction, StationKind};
 
 /// Coefficient of variation given to the factor of an unfactored count (a study without any

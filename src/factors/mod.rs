@@ -31,6 +31,7 @@ pub mod growth;
 pub mod precision;
 pub mod stage;
 
+use chrono::{Datelike, NaiveDate};
 use thiserror::Error;
 
 pub use groups::{
@@ -85,4 +86,39 @@ pub enum FactorError {
         /// Units.
         units: usize,
     },
+}
+
+/// Factors of one factor group as the expansion needs them.
+#[derive(Debug, Clone, PartialEq)]
+pub struct GroupFactors {
+    /// Day-of-week (Monday = 0) by month (January = 0) factor: AADT / MADW.
+    pub dow_month: [[f64; 12]; 7],
+    /// Between-station CV of each cell's factor (None where fewer than two stations).
+    pub dow_month_cv: [[Option<f64>; 12]; 7],
+    /// Day-to-day CV of a single day about its month-weekday mean, pooled over the group.
+    pub day_cv: Option<f64>,
+    /// Stations behind the factors.
+    pub stations: usize,
+}
+
+impl GroupFactors {
+    /// A flat pattern: every cell 1, with the given CV per cell, behind `stations` counters.
+    pub fn flat(cv: Option<f64>, stations: usize) -> GroupFactors {
+        GroupFactors {
+            dow_month: [[1.0; 12]; 7],
+            dow_month_cv: [[cv; 12]; 7],
+            day_cv: None,
+            stations,
+        }
+    }
+
+    /// The factor for a date.
+    pub fn factor(&self, date: NaiveDate) -> f64 {
+        self.dow_month[date.weekday().num_days_from_monday() as usize][date.month0() as usize]
+    }
+
+    /// The between-station CV for a date's cell.
+    pub fn cv(&self, date: NaiveDate) -> Option<f64> {
+        self.dow_month_cv[date.weekday().num_days_from_monday() as usize][date.month0() as usize]
+    }
 }

@@ -25,11 +25,11 @@ use serde::{Deserialize, Serialize};
 use super::groups::{rule_group, FactorProfile, RuleGroup, RuleGroupParams};
 use super::growth::{growth_with_fallback, GrowthFit, GrowthObservation, NO_HISTORY_SLOPE_SE};
 use super::precision::FactorStats;
+use super::GroupFactors;
 use super::{cluster_profiles, ClusterParams, Clustering, GroupSummary};
 use crate::continuous::stage::{ContinuousOutput, StationStats};
-use crate::expansion::GroupFactors;
-use crate::input::StudyData;
-use crate::model::{Area, Network};
+use crate::model::StudyData;
+use crate::model::{Area, AssignmentRow, Network};
 
 /// Settings of the factor stage (`[factors]` in study.toml).
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
@@ -114,19 +114,6 @@ impl Default for FactorParams {
             min_group_counters: 2,
         }
     }
-}
-
-/// One row of the editable group-assignment table (`factors/group_assignment.csv`).
-#[derive(Debug, Clone, PartialEq, Eq, PartialOrd, Ord)]
-pub struct AssignmentRow {
-    /// Route the row applies to; `None` for the default row of a class and area.
-    pub route: Option<String>,
-    /// FHWA functional class, `None` for any.
-    pub functional_class: Option<u8>,
-    /// Area, `None` for any.
-    pub area: Option<Area>,
-    /// Group name.
-    pub group: String,
 }
 
 /// A factor group and everything estimated for it.

@@ -24,43 +24,16 @@ use chrono::{Datelike, NaiveDate, Timelike};
 
 use super::csvfile::{cell, parse_count, read_error, show, CsvFile};
 use super::error::InputError;
-use super::rejects::RejectedRow;
-use super::stations::StationList;
 use super::time::{parse_rfc3339, LocalStamp};
-use super::FileSummary;
 use crate::model::counts::{DirectionDay, MAX_DAY_HOURS, MAX_DAY_QUARTERS};
-use crate::model::{DayCounts, Direction, Network, StationId, StationKind, CLASS_COUNT};
+use crate::model::FileSummary;
+use crate::model::RejectedRow;
+use crate::model::StationList;
+use crate::model::{CountStore, DayCounts, Direction, Network, StationId, CLASS_COUNT};
 use crate::progress::Progress;
 
 /// The counts folder.
 pub const COUNTS_DIR: &str = "counts";
-
-/// All station-days read, per station (index as in [`StationList::stations`]).
-#[derive(Debug, Default)]
-pub struct CountStore {
-    /// Per station, its days by local date.
-    pub days: Vec<BTreeMap<NaiveDate, DayCounts>>,
-    /// Accepted records per (calendar year, station kind), for choosing the study year.
-    pub records_by_year: BTreeMap<(i32, StationKind), u64>,
-    /// Count rows folded into the store.
-    pub rows_used: u64,
-}
-
-impl CountStore {
-    /// The year holding most permanent-counter records (the contract's default study year).
-    pub fn busiest_continuous_year(&self) -> Option<i32> {
-        self.records_by_year
-            .iter()
-            .filter(|((_, k), _)| *k == StationKind::Continuous)
-            .max_by_key(|((y, _), n)| (**n, std::cmp::Reverse(*y)))
-            .map(|((y, _), _)| *y)
-    }
-
-    /// Every station-day, in station then date order.
-    pub fn iter(&self) -> impl Iterator<Item = &DayCounts> {
-        self.days.iter().flat_map(|m| m.values())
-    }
-}
 
 /// The count files of a study, sorted by name so reading order (and so which of two
 /// overlapping rows is kept) does not depend on the file system.

@@ -61,4 +61,15 @@ pub enum InputError {
         /// What is wrong and where.
         reason: String,
     },
+    /// A design table under `factors/` is not valid.
+    #[error("{path}{}: {reason}", line.map(|l| format!(", line {l}")).unwrap_or_default())]
+    BadTable {
+        /// The table file.
+        path: PathBuf,
+        /// Line of the bad row, the header being line 1; `None` when the table as a whole
+        /// is at fault.
+        line: Option<u64>,
+        /// What is wrong and what to fix.
+        reason: String,
+    },
 }

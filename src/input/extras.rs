@@ -7,64 +7,14 @@ use chrono::NaiveDate;
 use super::csvfile::{cell, parse_count, read_error, show, CsvFile};
 use super::error::InputError;
 use super::network::parse_number;
-use super::rejects::RejectedRow;
-use super::FileSummary;
-use crate::model::{Network, SegmentId};
+use crate::model::FileSummary;
+use crate::model::RejectedRow;
+use crate::model::{HistoryRecord, Network, SegmentId, TollRecord, VehicleGroup};
 
 /// Relative name of the history file.
 pub const HISTORY_FILE: &str = "history.csv";
 /// Relative name of the toll file.
 pub const TOLL_FILE: &str = "toll.csv";
-
-/// A published AADT of an earlier year.
-#[derive(Debug, Clone, PartialEq)]
-pub struct HistoryRecord {
-    /// Segment index in the network.
-    pub segment: usize,
-    /// Year the figure was published for.
-    pub year: i32,
-    /// Published AADT, vehicles/day.
-    pub aadt: f64,
-}
-
-/// Toll vehicle groups of the contract.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
-pub enum VehicleGroup {
-    /// Classes 1-3.
-    Light,
-    /// Classes 4-13.
-    Heavy,
-    /// Every class.
-    All,
-}
-
-impl VehicleGroup {
-    /// The contract's spelling.
-    pub fn as_str(self) -> &'static str {
-        match self {
-            VehicleGroup::Light => "light",
-            VehicleGroup::Heavy => "heavy",
-            VehicleGroup::All => "all",
-        }
-    }
-}
-
-/// One billing row of `toll.csv`.
-#[derive(Debug, Clone, PartialEq)]
-pub struct TollRecord {
-    /// Line in toll.csv.
-    pub line: u64,
-    /// Segment index in the network.
-    pub segment: usize,
-    /// First billed day.
-    pub from_date: NaiveDate,
-    /// Last billed day (inclusive).
-    pub to_date: NaiveDate,
-    /// Vehicle group billed.
-    pub group: VehicleGroup,
-    /// Passages billed, both directions.
-    pub billed_vehicles: u64,
-}
 
 fn open_optional(root: &Path, name: &str) -> Result<Option<CsvFile>, InputError> {
     let path = root.join(name);
@@ -239,7 +189,7 @@ pub fn read_group_assignment(
     root: &Path,
     rejects: &mut Vec<RejectedRow>,
     files: &mut Vec<FileSummary>,
-) -> Result<Option<Vec<crate::factors::stage::AssignmentRow>>, InputError> {
+) -> Result<Option<Vec<crate::model::AssignmentRow>>, InputError> {
     let Some(mut f) = open_optional(root, ASSIGNMENT_FILE)? else {
         return Ok(None);
     };
@@ -280,7 +230,7 @@ pub fn read_group_assignment(
                 Some(b"rural") => Some(crate::model::Area::Rural),
                 Some(v) => return Err(("area", show(v), "area is not `urban` or `rural`")),
             };
-            Ok(crate::factors::stage::AssignmentRow {
+            Ok(crate::model::AssignmentRow {
                 route: get(c_route).map(show),
                 functional_class,
                 area,

@@ -5,8 +5,8 @@ use std::path::Path;
 
 use super::csvfile::{cell, read_error, show, CsvFile};
 use super::error::InputError;
-use super::rejects::RejectedRow;
-use super::FileSummary;
+use crate::model::FileSummary;
+use crate::model::RejectedRow;
 use crate::model::{Area, FunctionalClass, Network, Node, NodeId, Segment, SegmentId};
 
 /// Relative name of the nodes file.

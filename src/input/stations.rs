@@ -1,28 +1,15 @@
 //! Reading `stations.csv`.
 
-use std::collections::HashMap;
 use std::path::Path;
 
 use super::csvfile::{cell, read_error, show, CsvFile};
 use super::error::InputError;
-use super::rejects::RejectedRow;
-use super::FileSummary;
-use crate::model::{Network, SegmentId, Station, StationId, StationKind};
+use crate::model::FileSummary;
+use crate::model::RejectedRow;
+use crate::model::{Network, SegmentId, Station, StationId, StationKind, StationList};
 
 /// Relative name of the stations file.
 pub const STATIONS_FILE: &str = "stations.csv";
-
-/// Stations read, and the ids of stations that were rejected with their reason (so that
-/// their count rows can be rejected with it too).
-#[derive(Debug, Default)]
-pub struct StationList {
-    /// Accepted stations in file order.
-    pub stations: Vec<Station>,
-    /// Station id -> index into `stations`.
-    pub index: HashMap<StationId, usize>,
-    /// Rejected station id -> reason.
-    pub rejected: HashMap<StationId, String>,
-}
 
 /// Reads `stations.csv`.
 pub fn read_stations(

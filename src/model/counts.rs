@@ -232,6 +232,17 @@ impl DayCounts {
     }
 }
 
+/// One clock hour of a count, in time order.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CountHour {
+    /// Local date of the hour.
+    pub date: NaiveDate,
+    /// Two-way volume of the hour.
+    pub volume: f64,
+    /// Whether this hour directly follows the previous one (false after a gap).
+    pub follows: bool,
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

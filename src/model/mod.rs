@@ -1,16 +1,27 @@
-//! Typed records shared by every stage: ids, the road network, stations and the
-//! per station-day count summaries that the reader builds while streaming the counts.
+//! Typed records shared by every stage: ids, the road network, stations, the per station-day
+//! count summaries that the reader builds while streaming the counts, the other records a study
+//! folder holds, and the design default tables. The lowest layer: it imports no other module
+//! of the crate.
 
 pub mod counts;
+pub mod design_tables;
 pub mod ids;
 pub mod network;
+pub mod records;
 pub mod station;
+pub mod study;
 pub mod views;
 
-pub use counts::{DayCounts, Direction, DirectionDay, StationDayKey, MAX_DAY_HOURS};
+pub use counts::{CountHour, DayCounts, Direction, DirectionDay, StationDayKey, MAX_DAY_HOURS};
+pub use design_tables::{
+    DesignTables, Facility, HcmDefault, HcmDefaults, LaneDistribution, LaneDistributionRow,
+    LoadEquivalency, TableError, TruckFactorRow,
+};
 pub use ids::{NodeId, SegmentId, StationId};
 pub use network::{Area, FunctionalClass, Network, Node, Segment};
-pub use station::{Station, StationKind};
+pub use records::{AssignmentRow, HistoryRecord, RejectedRow, TollRecord, VehicleGroup};
+pub use station::{Station, StationKind, StationList};
+pub use study::{CountStore, FileSummary, StudyData};
 
 /// Number of FHWA vehicle classes (the 13-category scheme).
 pub const CLASS_COUNT: usize = 13;

@@ -1,5 +1,7 @@
 //! Counting stations.
 
+use std::collections::HashMap;
+
 use super::ids::{SegmentId, StationId};
 
 /// How a station counts.
@@ -32,4 +34,16 @@ pub struct Station {
     pub segment: usize,
     /// Continuous or short.
     pub kind: StationKind,
+}
+
+/// Stations read, and the ids of stations that were rejected with their reason (so that
+/// their count rows can be rejected with it too).
+#[derive(Debug, Default)]
+pub struct StationList {
+    /// Accepted stations in file order.
+    pub stations: Vec<Station>,
+    /// Station id -> index into `stations`.
+    pub index: HashMap<StationId, usize>,
+    /// Rejected station id -> reason.
+    pub rejected: HashMap<StationId, String>,
 }

@@ -8,11 +8,13 @@ pub mod report;
 pub mod svg;
 pub mod table;
 pub mod tables;
+pub mod write;
 pub mod xlsx;
 
 use std::path::{Path, PathBuf};
 
 pub use table::{Cell, Column, Format, Table};
+pub use write::{write_all, RunReport};
 
 /// A problem writing outputs.
 #[derive(Debug, thiserror::Error)]

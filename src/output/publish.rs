@@ -8,7 +8,7 @@ use super::table::{Cell, Format, Table};
 use super::tables::col;
 use super::xlsx::CoverSheet;
 use crate::design::stage::DesignRow;
-use crate::input::StudyData;
+use crate::model::StudyData;
 use crate::pipeline::Results;
 use crate::totals::Total;
 

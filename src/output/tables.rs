@@ -1,7 +1,7 @@
 //! The tables `run` writes, built from stage outputs.
 
 use super::table::{Cell, Column, Format, Table};
-use crate::input::RejectedRow;
+use crate::model::RejectedRow;
 
 /// `rejected_rows.csv`, as the data contract lists its columns.
 pub fn rejected_rows(rows: &[RejectedRow]) -> Table {
@@ -33,7 +33,7 @@ use crate::expansion::calibration::Calibration;
 use crate::expansion::stage::ExpansionOutput;
 use crate::factors::precision::FactorStats;
 use crate::factors::stage::FactorOutput;
-use crate::input::StudyData;
+use crate::model::StudyData;
 use crate::qc::QcOutput;
 use crate::segments::{SegmentRow, Sourced};
 use crate::spatial::stage::{Interval, SpatialOutput};

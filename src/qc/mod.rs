@@ -82,8 +82,8 @@ use std::collections::{BTreeMap, HashSet};
 use chrono::{Datelike, NaiveDate};
 use rayon::prelude::*;
 
-use crate::input::counts::CountStore;
-use crate::input::stations::StationList;
+use crate::model::CountStore;
+use crate::model::StationList;
 use crate::model::{DayCounts, Direction, Network};
 
 pub use network::{check_network, NetworkFinding};

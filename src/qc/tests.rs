@@ -11,10 +11,10 @@ use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, Normal, Poisson};
 
 use super::*;
-use crate::input::counts::CountStore;
-use crate::input::stations::StationList;
 use crate::model::counts::hour_mask;
+use crate::model::CountStore;
 use crate::model::Network;
+use crate::model::StationList;
 use crate::model::{DayCounts, DirectionDay, CLASS_COUNT};
 
 const OFFSET: i32 = -300;

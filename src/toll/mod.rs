@@ -33,7 +33,7 @@ pub mod profile;
 pub mod reconcile;
 pub mod stage;
 
-pub use crate::input::VehicleGroup;
+pub use crate::model::VehicleGroup;
 pub use profile::{
     log_sd_from_interval, period_estimate, CounterDay, CounterDays, DailyProfile, DayEstimate,
     DaySource, FactorProfile, PeriodEstimate, DEFAULT_CALIBRATION_LOG_SD,

@@ -11,7 +11,7 @@ use super::profile::{CounterDay, CounterDays, DailyProfile, FactorProfile};
 use super::reconcile::{reconcile_row, ReconciliationRow, TollRow};
 use crate::continuous::stage::ContinuousOutput;
 use crate::factors::stage::FactorOutput;
-use crate::input::{StudyData, TollRecord};
+use crate::model::{StudyData, TollRecord};
 use crate::segments::SegmentRow;
 
 /// A row that could be reconciled, or why not.

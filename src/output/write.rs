@@ -1,0 +1,155 @@
+//! Writing a computed run: every table as CSV, the workbook, the map, the report and the
+//! manifest, from the pipeline's [`Results`].
+
+use std::path::{Path, PathBuf};
+
+use super::table::Table;
+use super::{csv_out, publish, tables, OutputError};
+use crate::config::Settings;
+use crate::input;
+use crate::pipeline::{check_report, CheckReport, Results};
+
+/// What a run wrote and found.
+#[derive(Debug, Clone)]
+pub struct RunReport {
+    /// The reading summary.
+    pub check: CheckReport,
+    /// Quality-control summary.
+    pub qc: crate::qc::QcSummary,
+    /// Files written.
+    pub written: Vec<PathBuf>,
+    /// Segments by basis: continuous, short_count, estimated.
+    pub basis_counts: [usize; 3],
+    /// The calibration table and cross-validation table, for the terminal summary.
+    pub calibration: Table,
+    /// Cross-validation table.
+    pub cross_validation: Table,
+    /// Network daily VKT with its 95 % interval (segments independent).
+    pub network_vkt: Option<(f64, f64, f64)>,
+}
+
+/// Writes every output of a computed run into `out` and returns what was written.
+pub fn write_all(r: &Results, settings: &Settings, out: &Path) -> Result<RunReport, OutputError> {
+    let check = check_report(&r.data, Some(r.year));
+    let data = &r.data;
+    let seg_table = tables::segment_statistics(data, &r.segments);
+    let calibration = tables::calibration_table(&r.calibration);
+    let cross_validation = tables::cross_validation(data, &r.spatial);
+    let all = [
+        seg_table,
+        tables::station_statistics(data, &r.continuous, &r.factors),
+        tables::hourly_distribution(data, &r.continuous),
+        tables::ranked_hours(data, &r.continuous),
+        tables::factors_table(&r.factors, settings.factors.target_precision),
+        tables::factor_groups(data, &r.factors),
+        tables::short_counts(data, &r.expansion),
+        calibration.clone(),
+        cross_validation.clone(),
+        tables::spatial_model(&r.spatial),
+        tables::qc_log(data, &r.qc),
+        tables::network_findings(&r.qc),
+        tables::rejected_rows(&data.rejected),
+    ];
+    let mut all = all.to_vec();
+    if let Some(toll) = &r.toll {
+        all.push(tables::toll_reconciliation(data, toll, &settings.toll));
+        let ok: Vec<crate::toll::reconcile::ReconciliationRow> =
+            toll.iter().filter_map(|t| t.result.clone().ok()).collect();
+        let months = crate::toll::reconcile::summarise_by_month(&ok);
+        let keys: Vec<(String, String)> = months
+            .iter()
+            .map(|m| {
+                (
+                    format!("{}-{:02}", m.year, m.month),
+                    m.group.as_str().to_string(),
+                )
+            })
+            .collect();
+        let totals: Vec<_> = months.iter().map(|m| m.totals.clone()).collect();
+        all.push(tables::toll_summary(
+            "toll_by_month",
+            "Toll reconciliation per month",
+            &keys,
+            &totals,
+        ));
+        let segs = crate::toll::reconcile::summarise_by_segment(&ok);
+        let keys: Vec<(String, String)> = segs
+            .iter()
+            .map(|m| (m.segment.0.clone(), m.group.as_str().to_string()))
+            .collect();
+        let totals: Vec<_> = segs.iter().map(|m| m.totals.clone()).collect();
+        all.push(tables::toll_summary(
+            "toll_by_segment",
+            "Toll reconciliation per segment",
+            &keys,
+            &totals,
+        ));
+    }
+    let days = if chrono::NaiveDate::from_ymd_opt(r.year, 2, 29).is_some() {
+        366.0
+    } else {
+        365.0
+    };
+    all.push(publish::design_table(
+        data,
+        &r.design,
+        settings.design.design_years,
+    ));
+    all.push(publish::totals_table(&r.totals, days));
+    super::ensure_dir(out)?;
+    let mut written = Vec::new();
+    for t in &all {
+        written.push(csv_out::write(out, t)?);
+    }
+    let fdir = out.join("factors");
+    super::ensure_dir(&fdir)?;
+    written.push(csv_out::write(
+        &fdir,
+        &tables::group_assignment(&r.factors),
+    )?);
+    let by_name: std::collections::BTreeMap<String, Table> =
+        all.iter().map(|t| (t.name.clone(), t.clone())).collect();
+    let refs: Vec<&Table> = all.iter().collect();
+    let cover = publish::cover(r, check.rows_read());
+    written.push(super::xlsx::write_workbook(
+        out,
+        "roadtally.xlsx",
+        &cover,
+        &refs,
+    )?);
+    written.push(super::geojson_out::write_segments_geojson(
+        out,
+        "segments.geojson",
+        &data.network,
+        &by_name["segment_statistics"],
+        "segment_id",
+    )?);
+    let report = publish::report_data(r, &by_name);
+    written.push(super::report::write_report(out, "report.html", &report)?);
+    let names: Vec<String> = written
+        .iter()
+        .map(|p| input::rejects::relative_name(out, p))
+        .collect();
+    let manifest = publish::manifest(data, settings, r.year, &names);
+    written.push(super::write_atomic(out, "run_manifest.json", &manifest)?);
+    let mut basis_counts = [0; 3];
+    for s in &r.segments {
+        basis_counts[s.basis as usize] += 1;
+    }
+    Ok(RunReport {
+        check,
+        qc: r.qc.summary.clone(),
+        written,
+        basis_counts,
+        calibration,
+        cross_validation,
+        network_vkt: r
+            .totals
+            .iter()
+            .find(|t| t.functional_class == 0 && t.area == "all" && t.vehicles == "all")
+            .map(|t| {
+                let (lo, hi) = t.interval();
+                (t.daily_vkt, lo, hi)
+            }),
+    })
+}
