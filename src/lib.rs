@@ -23,6 +23,7 @@ pub mod design;
 pub mod expansion;
 pub mod factors;
 pub mod input;
+mod layers;
 pub mod model;
 pub mod output;
 pub mod pipeline;

@@ -1,5 +1,5 @@
 //! The only place that knows the order of the stages: [`compute`] runs them and returns
-//! their [`Results`]; it writes nothing (writing is [`crate::output`]'s, which takes the
+//! their [`Results`]; it writes nothing (writing is the output layer's, which takes the
 //! results).
 
 use std::collections::BTreeMap;

@@ -109,7 +109,7 @@ impl LaneDistribution {
     /// The built-in defaults, identical to the shipped `factors/lane_distribution.csv`.
     ///
     /// ```
-    /// use roadtally::design::LaneDistribution;
+    /// use roadtally::model::LaneDistribution;
     /// let t = LaneDistribution::aashto_1993();
     /// assert_eq!(t.d_l(2), 0.90);
     /// assert_eq!(t.range(3), (0.60, 0.80));
@@ -362,7 +362,7 @@ impl HcmDefaults {
     /// (HCM 6th ed. / HCM 2010, from memory).
     ///
     /// ```
-    /// use roadtally::design::{Facility, HcmDefaults};
+    /// use roadtally::model::{Facility, HcmDefaults};
     /// use roadtally::model::Area;
     /// let d = HcmDefaults::hcm6();
     /// assert_eq!(d.get(Facility::Freeway, Area::Rural).phf, 0.88);

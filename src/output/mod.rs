@@ -5,7 +5,6 @@ pub mod csv_out;
 pub mod geojson_out;
 pub mod publish;
 pub mod report;
-pub mod svg;
 pub mod table;
 pub mod tables;
 pub mod write;

@@ -1,11 +1,12 @@
 //! The report's page layout (maud template): sections, headings, tables and where each chart
-//! goes. The charts themselves are drawn in [`crate::output::svg`]; the styles are in
+//! goes. The charts themselves are drawn in [`super::svg`]; the styles are in
 //! `report.css` next to this file.
 
 use maud::{html, Markup, PreEscaped, DOCTYPE};
 
-use super::{metric_charts, qc_chart, ReportData, TABLE_ROWS_MAX};
-use crate::output::svg;
+use super::charts::{metric_charts, qc_chart};
+use super::data::{ReportData, TABLE_ROWS_MAX};
+use super::svg;
 use crate::output::table::{cell_text, Cell, Format, Table};
 
 /// The stylesheet, inlined so the page needs no other file.

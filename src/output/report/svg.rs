@@ -16,7 +16,7 @@
 
 use maud::{html, Markup};
 
-use super::report::{MapSegment, Series};
+use super::data::{Bar, MapSegment, QcRow, Series};
 
 /// Sequential colours for AADT bins, light (low volume) to dark (high volume); ColorBrewer
 /// YlGnBu without its two lightest steps, so thin low-volume lines stay visible on paper.
@@ -53,7 +53,7 @@ const WEEKDAYS: [&str; 7] = ["Mon", "Tue", "Wed", "Thu", "Fri", "Sat", "Sun"];
 /// A number with thousands separators and no decimals: `12,345`.
 ///
 /// ```
-/// assert_eq!(roadtally::output::svg::thousands(1_234_567.4), "1,234,567");
+/// assert_eq!(roadtally::output::report::svg::thousands(1_234_567.4), "1,234,567");
 /// ```
 pub fn thousands(v: f64) -> String {
     if !v.is_finite() {
@@ -88,7 +88,7 @@ fn relative_width(s: &MapSegment) -> Option<f64> {
 /// Line opacity: 1 - half-width / AADT, clipped to [`OPACITY_MIN`, 1].
 ///
 /// ```
-/// use roadtally::output::svg::interval_opacity;
+/// use roadtally::output::report::svg::interval_opacity;
 /// // 1,000 veh/day with a 95 % interval of 800 to 1,200: half-width 20 % -> opacity 0.8.
 /// assert!((interval_opacity(1000.0, 800.0, 1200.0) - 0.8).abs() < 1e-12);
 /// ```
@@ -483,15 +483,6 @@ fn nice_ceil(v: f64) -> f64 {
         .unwrap_or(10.0 * p)
 }
 
-/// One bar of a bar chart.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Bar {
-    /// Category label.
-    pub label: String,
-    /// Value in the chart's unit.
-    pub value: f64,
-}
-
 /// A horizontal bar chart of `bars` in `unit`, with an optional dashed reference line (value,
 /// label), e.g. the nominal 95 % coverage. Shows at most [`BARS_MAX`] bars.
 pub fn bar_chart(title: &str, bars: &[Bar], unit: &str, reference: Option<(f64, &str)>) -> Markup {
@@ -545,9 +536,6 @@ pub fn bar_chart(title: &str, bars: &[Bar], unit: &str, reference: Option<(f64, 
         }
     }
 }
-
-/// One row of the QC chart: a label and station-days `[accepted, flagged, rejected]`.
-pub type QcRow = (String, [f64; 3]);
 
 /// Stacked horizontal bars of station-days accepted, flagged and rejected per row.
 pub fn qc_bars(title: &str, rows: &[QcRow]) -> Markup {

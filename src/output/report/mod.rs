@@ -9,95 +9,31 @@
 //!
 //! # Self-contained and safe
 //! The file needs nothing but a browser: CSS is inline, charts are inline SVG
-//! ([`super::svg`]), and there are no scripts, external links, fonts or images, so it works
+//! ([`svg`]), and there are no scripts, external links, fonts or images, so it works
 //! offline and archived copies never change. Every text taken from the inputs (station names,
 //! labels, table cells) is HTML-escaped by the maud templates, so a name like
 //! `<script>alert(1)</script>` is shown, never run.
 //!
 //! # Layout and print
-//! The page layout lives in its own module (`report/layout.rs`) and the stylesheet in
-//! `report/report.css`. The page reads at laptop width and has a print stylesheet for A4 and
+//! One direction inside: [`data`] (what the report shows) -> [`svg`] (charts drawn from it)
+//! and `charts.rs` (which result columns become bar charts) -> `page.rs` (the layout) ->
+//! this module (render and write). The stylesheet is `report/report.css`. The page reads at laptop width and has a print stylesheet for A4 and
 //! Letter (15 mm margins, charts and table rows kept whole, table headers repeated).
 //!
 //! # Determinism
 //! The page states the tool version, not the time it was made, and numbers are printed with
 //! fixed decimals, so identical inputs give a byte-identical file.
 
-mod layout;
+mod charts;
+pub mod data;
+mod page;
+pub mod svg;
 
 use std::path::{Path, PathBuf};
 
-use super::svg::QcRow;
-use super::table::{Cell, Format, Table};
+pub use data::{Bar, MapSegment, QcRow, ReportData, Series, TABLE_ROWS_MAX};
+
 use super::{write_atomic, OutputError};
-
-/// Most rows of one table shown in the report; longer tables end with a note that the full
-/// table is in its CSV file.
-pub const TABLE_ROWS_MAX: usize = 100;
-
-/// One segment on the report's map.
-#[derive(Debug, Clone, PartialEq)]
-pub struct MapSegment {
-    /// From node, (lon, lat) decimal degrees WGS 84.
-    pub from: (f64, f64),
-    /// To node, (lon, lat) decimal degrees WGS 84.
-    pub to: (f64, f64),
-    /// AADT, veh/day.
-    pub aadt: f64,
-    /// Lower end of the 95 % interval, veh/day.
-    pub lo95: f64,
-    /// Upper end of the 95 % interval, veh/day.
-    pub hi95: f64,
-    /// `continuous`, `short_count` or `estimated`; estimated segments are drawn dashed.
-    pub basis: String,
-    /// Tooltip label, e.g. the segment id and route.
-    pub label: String,
-}
-
-/// A named series of values, e.g. the 12 monthly factors of one factor group.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Series {
-    /// Group name.
-    pub name: String,
-    /// Values (dimensionless factors); a non-finite value is a gap.
-    pub values: Vec<f64>,
-}
-
-/// Everything the report shows; the pipeline fills it from stage outputs.
-#[derive(Debug, Clone, PartialEq, Default)]
-pub struct ReportData {
-    /// Page title.
-    pub title: String,
-    /// The study year.
-    pub study_year: i32,
-    /// Tool and version, e.g. "roadtally 0.1.0" (no wall clock, so outputs are reproducible).
-    pub generated_by: String,
-    /// Key facts as label and text: counts used, segments, stations ...
-    pub summary: Vec<(String, String)>,
-    /// Segments to map.
-    pub map: Vec<MapSegment>,
-    /// Monthly factors per factor group (12 values, January first).
-    pub monthly_factors: Vec<Series>,
-    /// Weekday factors per factor group (7 values, Monday first).
-    pub weekday_factors: Vec<Series>,
-    /// Short-count calibration table (error and coverage by count length and class group).
-    pub calibration: Option<Table>,
-    /// Cross-validation table of the spatial estimates.
-    pub cross_validation: Option<Table>,
-    /// Quality-control summary: station-days accepted, flagged and rejected per station and
-    /// rule.
-    pub qc_summary: Option<Table>,
-    /// Network totals (vehicle-km, segments by basis ...).
-    pub network_totals: Option<Table>,
-    /// Further tables shown as they are (design, toll reconciliation ...), at most
-    /// [`TABLE_ROWS_MAX`] rows each.
-    pub extra_tables: Vec<Table>,
-    /// Method sections: heading and paragraph.
-    pub methods: Vec<(String, String)>,
-    /// The caution: figures are estimates with stated uncertainty; design follows local
-    /// codes and a licensed engineer's judgement.
-    pub caution: String,
-}
 
 /// Renders the complete HTML5 document.
 ///
@@ -114,7 +50,7 @@ pub struct ReportData {
 /// assert!(html.contains("estimates &lt;with&gt; stated"));
 /// ```
 pub fn render_report(data: &ReportData) -> String {
-    layout::page(data).into_string()
+    page::page(data).into_string()
 }
 
 /// Writes the report as `<dir>/<name>` (the name includes `.html`), atomically.
@@ -122,204 +58,11 @@ pub fn write_report(dir: &Path, name: &str, data: &ReportData) -> Result<PathBuf
     write_atomic(dir, name, render_report(data).as_bytes())
 }
 
-/// Columns of result tables that are worth a bar chart, matched by name: error and coverage
-/// measures.
-fn is_metric(name: &str) -> bool {
-    let n = name.to_ascii_lowercase();
-    ["ape", "coverage", "bias", "rmse", "error"]
-        .iter()
-        .any(|k| n.split('_').any(|part| part.starts_with(k)))
-}
-
-/// Columns that name a category of a result table row (count length, class group ...).
-fn is_category(table: &Table, ci: usize) -> bool {
-    const NAMES: [&str; 10] = [
-        "hours",
-        "count_hours",
-        "class_group",
-        "estimator",
-        "group",
-        "method",
-        "basis",
-        "functional_class",
-        "area",
-        "model",
-    ];
-    let col = &table.columns[ci];
-    !is_metric(&col.name) && (col.format == Format::Text || NAMES.contains(&col.name.as_str()))
-}
-
-/// A bar chart request: title, bars, unit and an optional reference line.
-struct MetricChart {
-    title: String,
-    bars: Vec<super::svg::Bar>,
-    unit: String,
-    reference: Option<(f64, &'static str)>,
-}
-
-/// One bar chart per error or coverage column of a result table; none when the table has no
-/// such column (the table is still shown).
-fn metric_charts(table: &Table) -> Vec<MetricChart> {
-    let cats: Vec<usize> = (0..table.columns.len())
-        .filter(|&ci| is_category(table, ci))
-        .collect();
-    let label = |row: &[Cell]| -> String {
-        let parts: Vec<String> = cats
-            .iter()
-            .filter_map(|&ci| {
-                let col = &table.columns[ci];
-                let text = match &row[ci] {
-                    Cell::Empty => return None,
-                    Cell::Text(s) => s.clone(),
-                    Cell::Int(v) => v.to_string(),
-                    Cell::Num(v) => format!("{v}"),
-                };
-                Some(if col.unit.is_empty() {
-                    text
-                } else {
-                    format!("{text} {}", col.unit)
-                })
-            })
-            .collect();
-        parts.join(" · ")
-    };
-    let mut charts = Vec::new();
-    for (ci, col) in table.columns.iter().enumerate() {
-        if col.format == Format::Text || !is_metric(&col.name) {
-            continue;
-        }
-        let share = col.format == Format::Share;
-        let bars: Vec<super::svg::Bar> = table
-            .rows
-            .iter()
-            .enumerate()
-            .filter_map(|(ri, row)| {
-                let v = match row[ci] {
-                    Cell::Int(v) => v as f64,
-                    Cell::Num(v) if v.is_finite() => v,
-                    _ => return None,
-                };
-                let mut l = label(row);
-                if l.is_empty() {
-                    l = format!("row {}", ri + 1);
-                }
-                Some(super::svg::Bar {
-                    label: l,
-                    value: if share { 100.0 * v } else { v },
-                })
-            })
-            .collect();
-        if bars.is_empty() {
-            continue;
-        }
-        let unit = if share || col.name.ends_with("_pct") {
-            "%".to_string()
-        } else {
-            col.unit.to_string()
-        };
-        let reference = if col.name.to_ascii_lowercase().contains("coverage") {
-            let max = bars.iter().map(|b| b.value).fold(0.0, f64::max);
-            if unit == "%" || max > 1.5 {
-                Some((95.0, "nominal 95 %"))
-            } else {
-                Some((0.95, "nominal 0.95"))
-            }
-        } else {
-            None
-        };
-        charts.push(MetricChart {
-            title: format!("{} by {}", col.name, category_names(table, &cats)),
-            bars,
-            unit,
-            reference,
-        });
-    }
-    charts
-}
-
-fn category_names(table: &Table, cats: &[usize]) -> String {
-    if cats.is_empty() {
-        "row".to_string()
-    } else {
-        cats.iter()
-            .map(|&ci| table.columns[ci].name.as_str())
-            .collect::<Vec<_>>()
-            .join(" and ")
-    }
-}
-
-/// The QC chart: a title and one stacked bar per table row, or, when the table has more rows
-/// than a chart can show and a `rule` column, one bar per rule summed over stations (summing
-/// over rules instead would count a station's accepted days once per rule).
-fn qc_chart(table: &Table) -> Option<(String, Vec<QcRow>)> {
-    let rows = qc_rows(table)?;
-    let title = "Station-days accepted, flagged and rejected".to_string();
-    match table.column("rule") {
-        Some(rule) if rows.len() > super::svg::BARS_MAX => {
-            let mut by_rule: std::collections::BTreeMap<String, [f64; 3]> = Default::default();
-            for (row, (_, v)) in table.rows.iter().zip(&rows) {
-                let name = match &row[rule] {
-                    Cell::Text(s) => s.clone(),
-                    Cell::Empty => String::new(),
-                    other => super::table::cell_text(other, Format::Text),
-                };
-                let sum = by_rule.entry(name).or_insert([0.0; 3]);
-                for k in 0..3 {
-                    if v[k].is_finite() {
-                        sum[k] += v[k];
-                    }
-                }
-            }
-            Some((
-                format!("{title} per rule, all stations"),
-                by_rule.into_iter().collect(),
-            ))
-        }
-        _ => Some((title, rows)),
-    }
-}
-
-/// Rows of a QC summary as (label, [accepted, flagged, rejected]) when the table has those
-/// three columns (names starting with the words); `None` otherwise.
-fn qc_rows(table: &Table) -> Option<Vec<QcRow>> {
-    let find = |word: &str| {
-        table
-            .columns
-            .iter()
-            .position(|c| c.format != Format::Text && c.name.to_ascii_lowercase().starts_with(word))
-    };
-    let idx = [find("accepted")?, find("flagged")?, find("rejected")?];
-    let labels: Vec<usize> = (0..table.columns.len())
-        .filter(|&ci| table.columns[ci].format == Format::Text)
-        .collect();
-    let num = |c: &Cell| match c {
-        Cell::Int(v) => *v as f64,
-        Cell::Num(v) => *v,
-        _ => f64::NAN,
-    };
-    Some(
-        table
-            .rows
-            .iter()
-            .map(|row| {
-                let label = labels
-                    .iter()
-                    .filter_map(|&ci| match &row[ci] {
-                        Cell::Text(s) if !s.is_empty() => Some(s.as_str()),
-                        _ => None,
-                    })
-                    .collect::<Vec<_>>()
-                    .join(" · ");
-                (label, idx.map(|ci| num(&row[ci])))
-            })
-            .collect(),
-    )
-}
-
 #[cfg(test)]
 mod tests {
+    use super::charts::{metric_charts, qc_chart, qc_rows};
     use super::*;
-    use crate::output::table::Column;
+    use crate::output::table::{Cell, Column, Format, Table};
 
     const EVIL: &str = "<script>alert(1)</script>";
 

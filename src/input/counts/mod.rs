@@ -1,0 +1,240 @@
+//! Streaming the count files into per station-day summaries.
+//!
+//! Rows are never kept: each accepted row is folded into the [`DayCounts`] of its station and
+//! local date, so memory grows with station-days, not with rows. The first row read for a
+//! station, direction and span of time is kept; any later row covering part of that span is
+//! rejected (a `both` row overlaps `fwd` and `rev` rows), as the data contract settles.
+//!
+//! A large plain (not gzipped) file is read in byte ranges on the rayon pool: ranges start
+//! right after a newline that ends a non-empty record line, each is parsed on its own into a
+//! per-range store, and the ranges are merged in file order. A station-day held by two ranges
+//! is merged only where that gives exactly what folding the later rows one by one would give
+//! (no overlap, slot axes a whole number of hours apart, no row of the day rejected for a
+//! reason that depends on earlier rows); otherwise, and whenever the file holds a quote (a
+//! quoted field could hold a newline) or line ends other than `\n`, the file is read again
+//! sequentially. Line numbers are the range's own plus the newlines before it, so rejected
+//! rows carry the same lines and reasons either way.
+//!
+//! Files: `parse.rs` checks one row, `fold.rs` holds the overlap rule and folds a row into its
+//! station-day, `parallel.rs` reads and merges byte ranges; this file drives them per file.
+
+use std::collections::{BTreeMap, HashMap, HashSet};
+
+use rayon::prelude::*;
+use std::path::{Path, PathBuf};
+
+use chrono::{Datelike, NaiveDate, Timelike};
+
+mod fold;
+mod parallel;
+mod parse;
+#[cfg(test)]
+mod tests;
+
+use super::csvfile::{cell, parse_count, read_error, show, CsvFile};
+use super::error::InputError;
+use super::time::{parse_rfc3339, LocalStamp};
+use crate::model::counts::{DirectionDay, MAX_DAY_HOURS, MAX_DAY_QUARTERS};
+use crate::model::FileSummary;
+use crate::model::RejectedRow;
+use crate::model::StationList;
+use crate::model::{CountStore, DayCounts, Direction, Network, StationId, CLASS_COUNT};
+use crate::progress::Progress;
+use fold::*;
+use parallel::*;
+use parse::*;
+
+/// The counts folder.
+pub const COUNTS_DIR: &str = "counts";
+
+/// The count files of a study, sorted by name so reading order (and so which of two
+/// overlapping rows is kept) does not depend on the file system.
+pub fn count_files(root: &Path) -> Result<Vec<(PathBuf, String)>, InputError> {
+    let dir = root.join(COUNTS_DIR);
+    let entries = std::fs::read_dir(&dir).map_err(|_| InputError::MissingFile {
+        path: PathBuf::from(COUNTS_DIR),
+    })?;
+    let mut files: Vec<(PathBuf, String)> = entries
+        .filter_map(|e| e.ok())
+        .map(|e| e.path())
+        .filter(|p| {
+            let n = p.file_name().and_then(|n| n.to_str()).unwrap_or("");
+            p.is_file() && (n.ends_with(".csv") || n.ends_with(".csv.gz"))
+        })
+        .map(|p| {
+            let name = format!("{COUNTS_DIR}/{}", p.file_name().unwrap().to_string_lossy());
+            (p, name)
+        })
+        .collect();
+    files.sort_by(|a, b| a.1.cmp(&b.1));
+    if files.is_empty() {
+        return Err(InputError::NoCountFiles {
+            path: PathBuf::from(COUNTS_DIR),
+        });
+    }
+    Ok(files)
+}
+
+/// Plain count files at least this large are read in byte ranges on several threads.
+pub const PARALLEL_MIN_BYTES: u64 = 8 << 20;
+/// Target size of one byte range of a parallel read.
+pub const RANGE_BYTES: u64 = 32 << 20;
+
+/// Reads every count file into a [`CountStore`].
+pub fn read_counts(
+    root: &Path,
+    net: &Network,
+    stations: &StationList,
+    rejects: &mut Vec<RejectedRow>,
+    files: &mut Vec<FileSummary>,
+    progress: &Progress,
+) -> Result<CountStore, InputError> {
+    let split = Split {
+        min_bytes: PARALLEL_MIN_BYTES,
+        range_bytes: RANGE_BYTES,
+        workers: rayon::current_num_threads(),
+    };
+    read_counts_split(root, net, stations, rejects, files, progress, split)
+}
+
+/// When and how a plain count file is split into byte ranges read in parallel.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct Split {
+    /// Files smaller than this are read sequentially.
+    pub min_bytes: u64,
+    /// Target size of one range.
+    pub range_bytes: u64,
+    /// Ranges parsed at once (one per worker thread); 1 or 0 means sequential.
+    pub workers: usize,
+}
+
+pub(crate) fn read_counts_split(
+    root: &Path,
+    net: &Network,
+    stations: &StationList,
+    rejects: &mut Vec<RejectedRow>,
+    files: &mut Vec<FileSummary>,
+    progress: &Progress,
+    split: Split,
+) -> Result<CountStore, InputError> {
+    let list = count_files(root)?;
+    let mut store = CountStore {
+        days: vec![BTreeMap::new(); stations.stations.len()],
+        ..CountStore::default()
+    };
+    let total_bytes: u64 = list
+        .iter()
+        .map(|(p, _)| std::fs::metadata(p).map_or(0, |m| m.len()))
+        .sum();
+    let bar = progress.bytes("reading counts", total_bytes);
+    for (path, name) in &list {
+        let len = std::fs::metadata(path).map_or(0, |m| m.len());
+        let parallel = split.workers > 1 && len >= split.min_bytes && !name.ends_with(".gz");
+        let done = if parallel {
+            read_parallel(path, name, len, net, stations, split)?
+        } else {
+            None
+        };
+        let summary = match done {
+            Some(file) if absorb_check(&store, &file.store, &file.fold_keys) => {
+                bar.inc(len);
+                absorb(&mut store, file.store);
+                rejects.extend(file.rejects);
+                file.summary
+            }
+            _ => read_one(path, name, net, stations, &mut store, rejects, &bar)?,
+        };
+        files.push(summary);
+    }
+    bar.finish();
+    if store.rows_used == 0 {
+        return Err(InputError::NoCountRows {
+            path: PathBuf::from(COUNTS_DIR),
+        });
+    }
+    Ok(store)
+}
+
+/// Why a row was rejected, and the station-day whose state decided it (for fold faults).
+type Outcome = Result<(), (Fault, Option<(usize, NaiveDate)>)>;
+
+/// Checks one record and folds it into `store`.
+fn process(
+    rec: &csv::ByteRecord,
+    width: usize,
+    cols: &Columns,
+    net: &Network,
+    stations: &StationList,
+    store: &mut CountStore,
+    cache: &mut Option<(Vec<u8>, Result<usize, String>)>,
+) -> Outcome {
+    if rec.len() != width {
+        return Err((
+            (
+                "",
+                String::new(),
+                format!("row has {} fields, the header has {width}", rec.len()),
+            ),
+            None,
+        ));
+    }
+    let row = parse_row(rec, cols, net, stations, cache).map_err(|f| (f, None))?;
+    let key = (row.station, row.stamp.local.date());
+    fold(store, stations, row).map_err(|f| (f, Some(key)))
+}
+
+fn read_one(
+    path: &Path,
+    name: &str,
+    net: &Network,
+    stations: &StationList,
+    store: &mut CountStore,
+    rejects: &mut Vec<RejectedRow>,
+    bar: &crate::progress::Bar,
+) -> Result<FileSummary, InputError> {
+    let mut f = CsvFile::open(path, name)?;
+    let cols = Columns::find(&f)?;
+    let width = f.width();
+    let mut summary = FileSummary::new(name);
+    let mut rec = csv::ByteRecord::new();
+    let mut cache: Option<(Vec<u8>, Result<usize, String>)> = None;
+    let mut last_bytes = 0u64;
+    loop {
+        let more = f
+            .reader
+            .read_byte_record(&mut rec)
+            .map_err(|e| read_error(Path::new(name), e))?;
+        if !more {
+            break;
+        }
+        summary.rows += 1;
+        let pos = rec.position().expect("records carry a position");
+        if summary.rows.is_multiple_of(65_536) {
+            bar.inc(pos.byte().saturating_sub(last_bytes));
+            last_bytes = pos.byte();
+        }
+        match process(&rec, width, &cols, net, stations, store, &mut cache) {
+            Ok(()) => store.rows_used += 1,
+            Err(((col, val, why), _)) => {
+                rejects.push(RejectedRow::new(name, pos.line(), col, &val, why));
+                summary.rejected += 1;
+            }
+        }
+    }
+    bar.inc(
+        std::fs::metadata(path)
+            .map_or(0, |m| m.len())
+            .saturating_sub(last_bytes),
+    );
+    Ok(summary)
+}
+
+/// Station index lookups by id, for callers outside the reader.
+pub fn station_lookup(stations: &StationList) -> HashMap<&str, usize> {
+    stations
+        .stations
+        .iter()
+        .enumerate()
+        .map(|(i, s)| (s.id.as_str(), i))
+        .collect()
+}

@@ -1,0 +1,153 @@
+
+use super::*;
+use crate::demo::{generate_scaled, DemoParams, DemoSize, Scale};
+use crate::input::{network, stations};
+
+/// A tiny generated study with plain (not gzipped) count files, edited by `edit`
+/// (which gets the continuous counts file's text and returns the new text).
+fn study(edit: impl FnOnce(String) -> String) -> tempfile::TempDir {
+    let dir = tempfile::tempdir().unwrap();
+    let scale = Scale {
+        gzip_continuous: false,
+        ..Scale::TINY
+    };
+    generate_scaled(&DemoParams::new(3, DemoSize::Small), scale, dir.path()).unwrap();
+    let path = continuous_file(dir.path());
+    let text = std::fs::read_to_string(&path).unwrap();
+    std::fs::write(&path, edit(text)).unwrap();
+    dir
+}
+
+fn continuous_file(root: &Path) -> PathBuf {
+    count_files(root)
+        .unwrap()
+        .into_iter()
+        .find(|(_, n)| n.contains("continuous"))
+        .expect("a continuous counts file")
+        .0
+}
+
+/// The store (as text), rejected rows and file summaries of reading `root` with `split`.
+fn read(root: &Path, split: Split) -> (String, Vec<RejectedRow>, Vec<FileSummary>) {
+    let (mut rejects, mut files) = (Vec::new(), Vec::new());
+    let net = network::read_network(root, &mut rejects, &mut files).unwrap();
+    let st = stations::read_stations(root, &net, &mut rejects, &mut files).unwrap();
+    let store = read_counts_split(
+        root,
+        &net,
+        &st,
+        &mut rejects,
+        &mut files,
+        &Progress::hidden(),
+        split,
+    )
+    .unwrap();
+    (format!("{store:?}"), rejects, files)
+}
+
+const SEQUENTIAL: Split = Split {
+    min_bytes: u64::MAX,
+    range_bytes: RANGE_BYTES,
+    workers: 1,
+};
+
+fn parallel(range_bytes: u64) -> Split {
+    Split {
+        min_bytes: 0,
+        range_bytes,
+        workers: 2,
+    }
+}
+
+/// Whether the continuous file is read in ranges (rather than falling back).
+fn splits(root: &Path, range_bytes: u64) -> bool {
+    let (mut rejects, mut files) = (Vec::new(), Vec::new());
+    let net = network::read_network(root, &mut rejects, &mut files).unwrap();
+    let st = stations::read_stations(root, &net, &mut rejects, &mut files).unwrap();
+    let path = continuous_file(root);
+    let len = std::fs::metadata(&path).unwrap().len();
+    read_parallel(&path, "x", len, &net, &st, parallel(range_bytes))
+        .unwrap()
+        .is_some()
+}
+
+fn assert_same(root: &Path, ranges: &[u64]) {
+    let seq = read(root, SEQUENTIAL);
+    for &r in ranges {
+        let par = read(root, parallel(r));
+        assert_eq!(seq.1, par.1, "rejected rows, ranges of {r} bytes");
+        assert_eq!(seq.2, par.2, "file summaries, ranges of {r} bytes");
+        assert!(seq.0 == par.0, "store differs, ranges of {r} bytes");
+    }
+}
+
+#[test]
+fn ranges_give_the_sequential_result_on_a_generated_study() {
+    let dir = study(|t| t);
+    assert!(splits(dir.path(), 997));
+    assert_same(dir.path(), &[997, 4099, 65_536, 1 << 20]);
+}
+
+#[test]
+fn rows_of_a_day_read_later_merge_exactly() {
+    // Move a block of rows (the middle of some station-days) to the end of the file, and
+    // scatter blank lines: later, non-overlapping rows of days other ranges already hold.
+    let dir = study(|t| {
+        let mut lines: Vec<&str> = t.lines().collect();
+        let moved: Vec<&str> = lines.drain(500..700).collect();
+        lines.extend(moved);
+        let mut out = String::new();
+        for (i, l) in lines.iter().enumerate() {
+            out.push_str(l);
+            out.push('\n');
+            if i % 97 == 5 {
+                out.push('\n');
+            }
+        }
+        out
+    });
+    assert!(splits(dir.path(), 2003));
+    assert_same(dir.path(), &[997, 2003, 8191]);
+}
+
+#[test]
+fn overlaps_and_offset_clashes_across_ranges_keep_the_first_row() {
+    let dir = study(|t| {
+        let lines: Vec<&str> = t.lines().collect();
+        let mut out = t.clone();
+        // Exact duplicates of early rows, a `both` row over them, another UTC offset.
+        for l in &lines[1..40] {
+            out.push_str(l);
+            out.push('\n');
+        }
+        for l in &lines[300..310] {
+            out.push_str(
+                &l.replacen(",fwd,", ",both,", 1)
+                    .replacen(",rev,", ",both,", 1),
+            );
+            out.push('\n');
+            out.push_str(
+                &l.replacen("-05:00", "+01:00", 1)
+                    .replacen("-04:00", "+01:00", 1),
+            );
+            out.push('\n');
+        }
+        out
+    });
+    let seq = read(dir.path(), SEQUENTIAL);
+    assert!(seq.1.iter().any(|r| r.reason.starts_with("overlaps")));
+    assert_same(dir.path(), &[997, 4099, 65_536]);
+}
+
+#[test]
+fn quotes_and_crlf_fall_back_to_the_sequential_reader() {
+    let quoted = study(|mut t| {
+        t.push_str("\"C\nX\",fwd,2025-01-01T00:00:00-05:00,60,3\n");
+        t
+    });
+    assert!(!splits(quoted.path(), 997));
+    assert_same(quoted.path(), &[997, 4099]);
+    let crlf = study(|t| t.replace('\n', "\r\n"));
+    assert!(!splits(crlf.path(), 997));
+    assert_same(crlf.path(), &[997]);
+}
