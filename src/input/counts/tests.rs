@@ -1,4 +1,3 @@
-
 use super::*;
 use crate::demo::{generate_scaled, DemoParams, DemoSize, Scale};
 use crate::input::{network, stations};
