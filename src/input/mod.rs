@@ -1,6 +1,6 @@
 //! Reading a study folder: the only code that reads input files.
 //!
-//! Every bad row is logged as a [`RejectedRow`] with file, line, column and reason, and the
+//! Every bad row is logged as a [`RejectedRow`](crate::model::RejectedRow) with file, line, column and reason, and the
 //! run goes on; only the problems the data contract calls fatal return an [`InputError`].
 
 pub mod counts;
