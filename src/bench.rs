@@ -281,12 +281,12 @@ pub fn run_bench(dir: &Path, regenerate: bool) -> anyhow::Result<BenchReport> {
         let data = input::read_study(dir, &Progress::hidden())?;
         read.keep(t.stop());
         let t = Timer::start();
-        let qc_out = qc::run(
-            &data.counts,
-            &data.stations,
-            &data.network,
-            &config.settings.qc,
-        );
+        let input = qc::QcInput {
+            counts: &data.counts,
+            stations: &data.stations,
+            network: &data.network,
+        };
+        let qc_out = qc::run(&input, &config.settings.qc);
         check.keep(t.stop());
         last = Some((data, qc_out));
     }

@@ -19,6 +19,12 @@ pub enum PipelineError {
     /// No study year: none in study.toml and no permanent-counter record.
     #[error("study.toml: no `year` given and no permanent-counter record to take it from")]
     NoYear,
+    /// The factor groups could not be formed.
+    #[error("factor groups: {0}")]
+    Factors(#[from] crate::factors::FactorError),
+    /// The uncounted-segment estimate could not be set up.
+    #[error("uncounted-segment estimate: {0}")]
+    Spatial(#[from] crate::spatial::SpatialError),
 }
 
 /// What reading and checking found.
@@ -136,10 +142,29 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
     let assignment =
         input::extras::read_group_assignment(&data.root, &mut data.rejected, &mut data.files)?;
     let year = study_year(config, &data).ok_or(PipelineError::NoYear)?;
-    let qc = crate::qc::run(&data.counts, &data.stations, &data.network, &settings.qc);
-    let continuous = crate::continuous::stage::run(&data, year, &qc, &settings.continuous);
-    let factors =
-        crate::factors::stage::run(&data, &continuous, year, assignment, &settings.factors);
+    let qc_input = crate::qc::QcInput {
+        counts: &data.counts,
+        stations: &data.stations,
+        network: &data.network,
+    };
+    let qc = crate::qc::run(&qc_input, &settings.qc);
+    let continuous_input = crate::continuous::stage::ContinuousInput {
+        network: &data.network,
+        stations: &data.stations,
+        counts: &data.counts,
+        year,
+        filter: &qc,
+    };
+    let continuous = crate::continuous::stage::run(&continuous_input, &settings.continuous);
+    let factor_input = crate::factors::stage::FactorInput {
+        network: &data.network,
+        stations: &data.stations,
+        history: &data.history,
+        continuous: &continuous,
+        year,
+        assignment: assignment.as_deref(),
+    };
+    let factors = crate::factors::stage::run(&factor_input, &settings.factors)?;
     let calibration = calibrate(
         &data,
         &continuous,
@@ -147,24 +172,49 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
         &settings.expansion,
         settings.factors.cell_factors,
     );
-    let expansion = crate::expansion::stage::run(
-        &data,
+    let expansion_input = crate::expansion::stage::ExpansionInput {
+        network: &data.network,
+        stations: &data.stations,
+        counts: &data.counts,
         year,
-        &qc,
-        &factors,
-        &calibration,
-        &settings.expansion,
-    );
-    let obs = crate::segments::observations(&data, &continuous, &expansion);
-    let spatial = crate::spatial::stage::run(&data.network, &obs, &settings.spatial);
-    let segments = crate::segments::assemble(&data, &continuous, &factors, &expansion, &spatial);
-    let toll = data
-        .toll
-        .as_ref()
-        .map(|t| crate::toll::stage::run(&data, t, &segments, &continuous, &factors));
+        filter: &qc,
+        factors: &factors,
+        calibration: &calibration,
+    };
+    let expansion = crate::expansion::stage::run(&expansion_input, &settings.expansion);
+    let obs = crate::segments::observations(&data.network, &data.stations, &continuous, &expansion);
+    let spatial_input = crate::spatial::stage::SpatialInput {
+        network: &data.network,
+        observations: &obs,
+    };
+    let spatial = crate::spatial::stage::run(&spatial_input, &settings.spatial)?;
+    let segments = crate::segments::assemble(&crate::segments::SegmentsInput {
+        network: &data.network,
+        stations: &data.stations,
+        continuous: &continuous,
+        factors: &factors,
+        expansion: &expansion,
+        spatial: &spatial,
+    });
+    let toll = data.toll.as_ref().map(|t| {
+        crate::toll::stage::run(&crate::toll::stage::TollInput {
+            network: &data.network,
+            stations: &data.stations,
+            toll: t,
+            segments: &segments,
+            continuous: &continuous,
+            factors: &factors,
+        })
+    });
     let tables = input::read_design_tables(&data.root)?;
-    let design = crate::design::stage::run(&data, &segments, &factors, &tables, &settings.design);
-    let totals = crate::totals::network_totals(&data, &segments);
+    let design_input = crate::design::stage::DesignInput {
+        network: &data.network,
+        segments: &segments,
+        factors: &factors,
+        tables: &tables,
+    };
+    let design = crate::design::stage::run(&design_input, &settings.design);
+    let totals = crate::totals::network_totals(&data.network, &segments);
     Ok(Results {
         data,
         year,

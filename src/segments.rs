@@ -7,7 +7,7 @@ use crate::expansion::stage::ExpansionOutput;
 use crate::expansion::Z95;
 use crate::factors::precision::FactorStats;
 use crate::factors::stage::FactorOutput;
-use crate::model::StudyData;
+use crate::model::{Network, StationList};
 use crate::spatial::stage::{Interval, Observation, SpatialOutput};
 
 /// Where a segment's AADT comes from.
@@ -113,14 +113,15 @@ pub struct SegmentRow {
 
 /// Observations for the spatial stage: every segment with a counter or a short count.
 pub fn observations(
-    data: &StudyData,
+    network: &Network,
+    stations: &StationList,
     cont: &ContinuousOutput,
     exp: &ExpansionOutput,
 ) -> Vec<Observation> {
     let mut obs = Vec::new();
-    let mut seen = vec![false; data.network.segments.len()];
+    let mut seen = vec![false; network.segments.len()];
     for s in &cont.stations {
-        let seg = data.stations.stations[s.station].segment;
+        let seg = stations.stations[s.station].segment;
         if !seen[seg] && s.aadt_value > 0.0 {
             seen[seg] = true;
             obs.push(Observation {
@@ -162,7 +163,7 @@ fn network_stats(
 /// way the interval reflects how much heavy shares differ between segments: the standard
 /// deviation of ln(heavy share) over the study's classified segments (at least 0.25; 0.5 when
 /// fewer than three are classified).
-fn borrow_shares(data: &StudyData, rows: &mut [SegmentRow]) {
+fn borrow_shares(net: &Network, rows: &mut [SegmentRow]) {
     let measured = |r: &SegmentRow| {
         r.heavy
             .as_ref()
@@ -184,8 +185,7 @@ fn borrow_shares(data: &StudyData, rows: &mut [SegmentRow]) {
         0.5
     };
     let classified: Vec<bool> = rows.iter().map(measured).collect();
-    let routes =
-        crate::spatial::network_drift::RouteNeighbours::build(&data.network, &classified, 30.0);
+    let routes = crate::spatial::network_drift::RouteNeighbours::build(net, &classified, 30.0);
     let widen = |v: f64, source: String| Sourced {
         value: v,
         lo95: v * (-Z95 * s_b).exp(),
@@ -215,7 +215,7 @@ fn borrow_shares(data: &StudyData, rows: &mut [SegmentRow]) {
                 snapshot[k].0.clone(),
                 snapshot[k].1.clone(),
                 snapshot[k].2.clone(),
-                format!("route:{}", data.network.segments[k].id),
+                format!("route:{}", net.segments[k].id),
             ),
             None => (
                 r.heavy.clone(),
@@ -237,14 +237,32 @@ fn borrow_shares(data: &StudyData, rows: &mut [SegmentRow]) {
     }
 }
 
+/// What [`assemble`] reads: the stages whose figures a segment row brings together.
+#[derive(Debug, Clone, Copy)]
+pub struct SegmentsInput<'a> {
+    /// The network.
+    pub network: &'a Network,
+    /// Every station (the segment of each counter).
+    pub stations: &'a StationList,
+    /// The permanent counters' statistics.
+    pub continuous: &'a ContinuousOutput,
+    /// The factor groups.
+    pub factors: &'a FactorOutput,
+    /// The expanded short counts.
+    pub expansion: &'a ExpansionOutput,
+    /// The uncounted-segment estimates.
+    pub spatial: &'a SpatialOutput,
+}
+
 /// Builds every segment's row.
-pub fn assemble(
-    data: &StudyData,
-    cont: &ContinuousOutput,
-    factors: &FactorOutput,
-    exp: &ExpansionOutput,
-    spatial: &SpatialOutput,
-) -> Vec<SegmentRow> {
+pub fn assemble(input: &SegmentsInput) -> Vec<SegmentRow> {
+    let (data, cont, factors, exp, spatial) = (
+        input,
+        input.continuous,
+        input.factors,
+        input.expansion,
+        input.spatial,
+    );
     let net = &data.network;
     let mut counter_of = vec![None; net.segments.len()];
     for (i, s) in cont.stations.iter().enumerate() {
@@ -426,6 +444,6 @@ pub fn assemble(
             row
         })
         .collect::<Vec<_>>();
-    borrow_shares(data, &mut rows);
+    borrow_shares(input.network, &mut rows);
     rows
 }

@@ -15,7 +15,7 @@
 //! vehicle-km per day, and per year.
 
 use crate::expansion::Z95;
-use crate::model::StudyData;
+use crate::model::Network;
 use crate::segments::SegmentRow;
 
 /// One total with both intervals.
@@ -97,7 +97,7 @@ fn part(r: &SegmentRow, length_km: f64, vehicles: &str) -> Option<(f64, f64)> {
 }
 
 /// Totals by functional class x area x vehicle group, plus the network rows (class 0, `all`).
-pub fn network_totals(data: &StudyData, rows: &[SegmentRow]) -> Vec<Total> {
+pub fn network_totals(network: &Network, rows: &[SegmentRow]) -> Vec<Total> {
     let mut out = Vec::new();
     let areas = ["urban", "rural", "all"];
     for fc in 0..=7u8 {
@@ -114,7 +114,7 @@ pub fn network_totals(data: &StudyData, rows: &[SegmentRow]) -> Vec<Total> {
                 };
                 let mut var = 0.0;
                 for r in rows {
-                    let seg = &data.network.segments[r.segment];
+                    let seg = &network.segments[r.segment];
                     if (fc != 0 && seg.functional_class.code() != fc)
                         || (area != "all" && seg.area.as_str() != area)
                     {

@@ -24,9 +24,24 @@ use super::{
     ClassDay, DayVolume, DesignHour, HourVolume, HourlyDistribution, SufficiencyRule,
 };
 use crate::model::views::{complete_classes, complete_hours, DayFilter, Measured};
-use crate::model::CountHour;
-use crate::model::StudyData;
+use crate::model::{CountHour, CountStore, Network, StationList};
 use crate::model::{DayCounts, Direction, StationKind};
+
+/// What the stage reads: the counters, their segments (for one-way roads), their counts,
+/// the study year and quality control's verdicts.
+#[derive(Clone, Copy)]
+pub struct ContinuousInput<'a> {
+    /// The network (a counter on a one-way segment counts one direction).
+    pub network: &'a Network,
+    /// Every station; the stage takes the `continuous` ones.
+    pub stations: &'a StationList,
+    /// The folded counts.
+    pub counts: &'a CountStore,
+    /// The study year.
+    pub year: i32,
+    /// Direction-days quality control rejected.
+    pub filter: &'a dyn DayFilter,
+}
 
 /// Settings of the permanent-counter stage (`[continuous]` in study.toml).
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
@@ -103,19 +118,15 @@ impl ContinuousOutput {
     }
 }
 
-/// Runs the stage for `year`.
-pub fn run(
-    data: &StudyData,
-    year: i32,
-    filter: &dyn DayFilter,
-    params: &ContinuousParams,
-) -> ContinuousOutput {
-    let ids: Vec<usize> = (0..data.stations.stations.len())
-        .filter(|&s| data.stations.stations[s].kind == StationKind::Continuous)
+/// Runs the stage for the input's year. A counter without usable days is listed in
+/// `skipped` with its reason; the stage as a whole cannot fail.
+pub fn run(input: &ContinuousInput, params: &ContinuousParams) -> ContinuousOutput {
+    let ids: Vec<usize> = (0..input.stations.stations.len())
+        .filter(|&s| input.stations.stations[s].kind == StationKind::Continuous)
         .collect();
     let results: Vec<Result<StationStats, (usize, String)>> = ids
         .par_iter()
-        .map(|&s| station_stats(data, s, year, filter, params).map_err(|e| (s, e)))
+        .map(|&s| station_stats(input, s, params).map_err(|e| (s, e)))
         .collect();
     let mut out = ContinuousOutput::default();
     for r in results {
@@ -139,15 +150,14 @@ fn clock_label(k: usize) -> (u8, u8) {
 }
 
 fn station_stats(
-    data: &StudyData,
+    input: &ContinuousInput,
     s: usize,
-    year: i32,
-    filter: &dyn DayFilter,
     params: &ContinuousParams,
 ) -> Result<StationStats, String> {
-    let station = &data.stations.stations[s];
-    let oneway = data.network.segments[station.segment].oneway;
-    let days: Vec<&DayCounts> = data.counts.days[s]
+    let (year, filter) = (input.year, input.filter);
+    let station = &input.stations.stations[s];
+    let oneway = input.network.segments[station.segment].oneway;
+    let days: Vec<&DayCounts> = input.counts.days[s]
         .values()
         .filter(|d| d.date.year() == year)
         .collect();

@@ -5,7 +5,8 @@
 //! # Method
 //! - [`crate::model::design_tables`]: the editable default tables (lane distribution, truck
 //!   factors, HCM defaults), read from the top-level `factors/` folder by the input layer;
-//!   [`load_equivalency`]: the AASHTO 1993 Appendix D load-equivalency equations ([`lef_flexible`], [`lef_rigid`]).
+//!   [`load_equivalency`]: the AASHTO 1993 Appendix D load-equivalency equations
+//!   ([`lef_flexible`], [`lef_rigid`]).
 //! - [`pavement`]: `w18 = 365 · AADT · T · TF · D_D · D_L · GF` (AASHTO 1993 Part II
 //!   §2.1.3 and App. D; references §5.1, §5.4) with the compound growth factor
 //!   `GF = ((1+g)^n − 1)/g`; intervals from the AADT, heavy-share and growth-rate intervals,

@@ -12,7 +12,7 @@ use super::{
     HeavyMix, PavementInputs, PavementType, SegmentDesignInput,
 };
 use crate::factors::stage::FactorOutput;
-use crate::model::StudyData;
+use crate::model::Network;
 use crate::segments::SegmentRow;
 
 /// Settings of the design stage (`[design]` in study.toml).
@@ -47,14 +47,23 @@ pub struct DesignRow {
     pub growth_rate: f64,
 }
 
-/// Runs the stage.
-pub fn run(
-    data: &StudyData,
-    rows: &[SegmentRow],
-    factors: &FactorOutput,
-    tables: &DesignTables,
-    params: &DesignParams,
-) -> Vec<DesignRow> {
+/// What the stage reads.
+#[derive(Debug, Clone, Copy)]
+pub struct DesignInput<'a> {
+    /// The network (functional class and area of each segment).
+    pub network: &'a Network,
+    /// The published segment rows.
+    pub segments: &'a [SegmentRow],
+    /// The factor groups (growth rate of each segment's group).
+    pub factors: &'a FactorOutput,
+    /// The default tables (lane distribution, truck factors, HCM defaults).
+    pub tables: &'a DesignTables,
+}
+
+/// Runs the stage. A segment whose inputs the design maths cannot take (no heavy share, no
+/// K or D) gets no pavement or capacity inputs; the stage as a whole cannot fail.
+pub fn run(input: &DesignInput, params: &DesignParams) -> Vec<DesignRow> {
+    let (data, rows, factors, tables) = (input, input.segments, input.factors, input.tables);
     rows.iter()
         .map(|r| {
             let seg = &data.network.segments[r.segment];

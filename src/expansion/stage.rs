@@ -18,8 +18,7 @@ use super::{
 };
 use crate::factors::stage::FactorOutput;
 use crate::model::views::{complete_classes, two_way_hour, DayFilter, Measured};
-use crate::model::StudyData;
-use crate::model::{Direction, StationKind};
+use crate::model::{CountStore, Direction, Network, StationKind, StationList};
 
 /// Coefficient of variation given to the factor of an unfactored count (a study without any
 /// usable permanent counter): seasonal and weekday swings of ±25 % are common (common practice).
@@ -89,15 +88,35 @@ pub struct ExpansionOutput {
     pub segments: BTreeMap<usize, SegmentCount>,
 }
 
-/// Runs the stage.
-pub fn run(
-    data: &StudyData,
-    year: i32,
-    filter: &dyn DayFilter,
-    factors: &FactorOutput,
-    calibration: &Calibration,
-    params: &ExpansionParams,
-) -> ExpansionOutput {
+/// What the stage reads.
+#[derive(Clone, Copy)]
+pub struct ExpansionInput<'a> {
+    /// The network (one-way segments, segment of each count).
+    pub network: &'a Network,
+    /// Every station; the stage takes the `short` ones.
+    pub stations: &'a StationList,
+    /// The folded counts.
+    pub counts: &'a CountStore,
+    /// The study year every count is expanded to.
+    pub year: i32,
+    /// Direction-days quality control rejected.
+    pub filter: &'a dyn DayFilter,
+    /// The factor groups and their factors.
+    pub factors: &'a FactorOutput,
+    /// The calibration experiment (the interval of a count of each length).
+    pub calibration: &'a Calibration,
+}
+
+/// Runs the stage. A count that cannot be expanded is listed in `unexpanded` with its
+/// reason; the stage as a whole cannot fail.
+pub fn run(input: &ExpansionInput, params: &ExpansionParams) -> ExpansionOutput {
+    let (data, year, filter, factors, calibration) = (
+        input,
+        input.year,
+        input.filter,
+        input.factors,
+        input.calibration,
+    );
     let mut out = ExpansionOutput::default();
     for (s, station) in data.stations.stations.iter().enumerate() {
         if station.kind != StationKind::Short {

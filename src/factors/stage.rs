@@ -25,11 +25,10 @@ use serde::{Deserialize, Serialize};
 use super::groups::{rule_group, FactorProfile, RuleGroup, RuleGroupParams};
 use super::growth::{growth_with_fallback, GrowthFit, GrowthObservation, NO_HISTORY_SLOPE_SE};
 use super::precision::FactorStats;
-use super::GroupFactors;
 use super::{cluster_profiles, ClusterParams, Clustering, GroupSummary};
+use super::{FactorError, GroupFactors};
 use crate::continuous::stage::{ContinuousOutput, StationStats};
-use crate::model::StudyData;
-use crate::model::{Area, AssignmentRow, Network};
+use crate::model::{Area, AssignmentRow, HistoryRecord, Network, StationList};
 
 /// Settings of the factor stage (`[factors]` in study.toml).
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
@@ -303,15 +302,27 @@ fn stats_of(values: impl Iterator<Item = f64>) -> Option<FactorStats> {
     FactorStats::from_values(&v)
 }
 
-/// Runs the stage. `assignment` overrides the default table when the study provides one.
-pub fn run(
-    data: &StudyData,
-    cont: &ContinuousOutput,
-    year: i32,
-    assignment: Option<Vec<AssignmentRow>>,
-    params: &FactorParams,
-) -> FactorOutput {
-    let net = &data.network;
+/// What the stage reads.
+#[derive(Debug, Clone, Copy)]
+pub struct FactorInput<'a> {
+    /// The network (class, area and route of every segment).
+    pub network: &'a Network,
+    /// Every station.
+    pub stations: &'a StationList,
+    /// Published AADT of earlier years, for growth.
+    pub history: &'a [HistoryRecord],
+    /// The permanent counters' statistics.
+    pub continuous: &'a ContinuousOutput,
+    /// The study year.
+    pub year: i32,
+    /// The study's group assignment table, which overrides the default one.
+    pub assignment: Option<&'a [AssignmentRow]>,
+}
+
+/// Runs the stage. Fails only on a functional class the grouping rule does not know.
+pub fn run(input: &FactorInput, params: &FactorParams) -> Result<FactorOutput, FactorError> {
+    let (data, cont, year) = (input, input.continuous, input.year);
+    let net = input.network;
     let seg_of = |st: usize| data.stations.stations[st].segment;
     // 1. Rule group of every permanent counter (its own profile decides recreational).
     let mut counter_groups: Vec<(usize, RuleGroup, Option<FactorProfile>)> = Vec::new();
@@ -325,15 +336,17 @@ pub fn run(
             seg.area,
             profile.as_ref(),
             &params.rule,
-        )
-        .expect("functional class validated on reading");
+        )?;
         counter_groups.push((s.station, g, profile));
     }
     let seg_groups: Vec<(usize, RuleGroup)> = counter_groups
         .iter()
         .map(|(st, g, _)| (seg_of(*st), *g))
         .collect();
-    let assignment = assignment.unwrap_or_else(|| default_assignment(net, &seg_groups, params));
+    let assignment = input.assignment.map_or_else(
+        || default_assignment(net, &seg_groups, params),
+        <[_]>::to_vec,
+    );
     // 2. Group of every segment: its counter's group, else the table's.
     let mut names: Vec<String> = RuleGroup::ALL
         .iter()
@@ -503,13 +516,13 @@ pub fn run(
             })
         })
         .collect();
-    FactorOutput {
+    Ok(FactorOutput {
         groups,
         segment_group,
         station_groups,
         clustering,
         assignment,
-    }
+    })
 }
 
 /// Typical axles per vehicle of each FHWA class, from the class definitions (classes that
@@ -578,7 +591,7 @@ fn borrow_order(name: &str) -> Vec<&'static str> {
 /// Growth observations: published AADT of earlier years (history.csv) and this year's
 /// permanent-counter AADT, per segment; for one group, or for all when `group` is None.
 fn growth_observations(
-    data: &StudyData,
+    data: &FactorInput,
     cont: &ContinuousOutput,
     year: i32,
     group: Option<usize>,

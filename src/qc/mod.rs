@@ -234,19 +234,29 @@ impl QcOutput {
     }
 }
 
-/// Runs every count rule over the store and the network checks over the network.
+/// What quality control reads.
+#[derive(Debug, Clone, Copy)]
+pub struct QcInput<'a> {
+    /// The folded counts.
+    pub counts: &'a CountStore,
+    /// Every station (kind, and segment for one-way roads).
+    pub stations: &'a StationList,
+    /// The network, for its own checks.
+    pub network: &'a Network,
+}
+
+/// Runs every count rule over the store and the network checks over the network. A finding
+/// is data, not a failure: the stage as a whole cannot fail.
 ///
 /// ```
-/// use roadtally::qc::{run, QcParams};
-/// let out = run(&Default::default(), &Default::default(), &Default::default(), &QcParams::default());
+/// use roadtally::qc::{run, QcInput, QcParams};
+/// let (counts, stations, network) = (Default::default(), Default::default(), Default::default());
+/// let input = QcInput { counts: &counts, stations: &stations, network: &network };
+/// let out = run(&input, &QcParams::default());
 /// assert!(out.findings.is_empty() && out.summary.direction_days == 0);
 /// ```
-pub fn run(
-    store: &CountStore,
-    stations: &StationList,
-    network: &Network,
-    params: &QcParams,
-) -> QcOutput {
+pub fn run(input: &QcInput, params: &QcParams) -> QcOutput {
+    let (store, stations, network) = (input.counts, input.stations, input.network);
     let oneway = |si: usize| {
         stations
             .stations

@@ -758,7 +758,12 @@ fn tiny_study() -> (CountStore, StationList, Network) {
 #[test]
 fn run_rejects_faulty_direction_days_and_counts_outcomes() {
     let (store, stations, net) = tiny_study();
-    let out = run(&store, &stations, &net, &QcParams::default());
+    let input = QcInput {
+        counts: &store,
+        stations: &stations,
+        network: &net,
+    };
+    let out = run(&input, &QcParams::default());
     let fault = date0() + chrono::Duration::days(FAULT_DAY as i64);
     assert!(out.is_rejected(0, fault, Direction::Fwd));
     assert!(!out.is_rejected(0, fault, Direction::Rev));

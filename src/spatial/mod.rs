@@ -114,6 +114,13 @@ pub enum SpatialError {
         /// Lags needed.
         needed: usize,
     },
+    /// The drift regression of ln AADT on the segment attributes has no solution (for
+    /// example every count on segments that share one attribute value and the ridge is 0).
+    #[error("the drift regression of ln AADT on {counted} counted segments could not be solved")]
+    DriftUnsolvable {
+        /// Counted segments in the regression.
+        counted: usize,
+    },
     /// No system in the fallback chain gave a finite answer for these neighbours.
     #[error("kriging system could not be solved; neighbour points {points:?}")]
     Unsolvable {

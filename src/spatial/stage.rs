@@ -35,7 +35,7 @@ use serde::{Deserialize, Serialize};
 use super::network_drift::RouteNeighbours;
 use super::{
     empirical_variogram, fit_variogram, CovarianceModel, Kriger, KrigingData, KrigingParams,
-    LogNormalEstimate, ModelKind, Target, VariogramFit, Z_95,
+    LogNormalEstimate, ModelKind, SpatialError, Target, VariogramFit, Z_95,
 };
 use crate::model::{Area, Network};
 
@@ -363,8 +363,20 @@ fn fallback_text(p: &super::Prediction) -> String {
         .join("; ")
 }
 
-/// Runs the stage: estimates for every segment that is not in `obs`, and the validation.
-pub fn run(net: &Network, obs: &[Observation], params: &SpatialParams) -> SpatialOutput {
+/// What the stage reads.
+#[derive(Debug, Clone, Copy)]
+pub struct SpatialInput<'a> {
+    /// The network: geometry, attributes of the drift, routes.
+    pub network: &'a Network,
+    /// The counted segments' ln AADT with their measurement variance.
+    pub observations: &'a [Observation],
+}
+
+/// Runs the stage: estimates for every segment that is not observed, and the validation.
+/// Fails when the drift regression or the kriging system cannot be set up, so that no
+/// segment is ever published without an estimate.
+pub fn run(input: &SpatialInput, params: &SpatialParams) -> Result<SpatialOutput, SpatialError> {
+    let (net, obs) = (input.network, input.observations);
     let n_seg = net.segments.len();
     let mut out = SpatialOutput {
         estimates: vec![None; n_seg],
@@ -394,7 +406,7 @@ pub fn run(net: &Network, obs: &[Observation], params: &SpatialParams) -> Spatia
             "only {} counted segments: uncounted segments take their mean with a wide interval",
             obs.len()
         );
-        return out;
+        return Ok(out);
     }
     let mids = net.midpoints_km();
     let mut counted = vec![false; n_seg];
@@ -405,10 +417,8 @@ pub fn run(net: &Network, obs: &[Observation], params: &SpatialParams) -> Spatia
     }
     let routes = RouteNeighbours::build(net, &counted, params.route_reach_km);
     let sf = speed_fill(net);
-    let Some(fit) = regression(net, obs, &y_by_seg, &routes, &sf, None, params.ridge) else {
-        out.model_note = "the drift regression could not be solved".into();
-        return out;
-    };
+    let fit = regression(net, obs, &y_by_seg, &routes, &sf, None, params.ridge)
+        .ok_or(SpatialError::DriftUnsolvable { counted: obs.len() })?;
     out.coefficients = term_names(fit.full)
         .into_iter()
         .zip(fit.beta.iter().copied())
@@ -439,11 +449,7 @@ pub fn run(net: &Network, obs: &[Observation], params: &SpatialParams) -> Spatia
         drift: f_obs.iter().map(|f| vec![*f]).collect(),
         meas_var: meas.clone(),
     };
-    let Ok(kriger) = Kriger::new(data, kparams) else {
-        out.model_note
-            .push_str("; kriging system could not be built");
-        return out;
-    };
+    let kriger = Kriger::new(data, kparams)?;
     let targets: Vec<usize> = (0..n_seg).filter(|&s| !counted[s]).collect();
     let tgt: Vec<Target> = targets
         .iter()
@@ -483,7 +489,7 @@ pub fn run(net: &Network, obs: &[Observation], params: &SpatialParams) -> Spatia
             )
         })
         .collect();
-    out
+    Ok(out)
 }
 
 #[allow(clippy::too_many_arguments)]

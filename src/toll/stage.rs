@@ -11,7 +11,7 @@ use super::profile::{CounterDay, CounterDays, DailyProfile, FactorProfile};
 use super::reconcile::{reconcile_row, ReconciliationRow, TollRow};
 use crate::continuous::stage::ContinuousOutput;
 use crate::factors::stage::FactorOutput;
-use crate::model::{StudyData, TollRecord};
+use crate::model::{Network, StationList, TollRecord};
 use crate::segments::SegmentRow;
 
 /// A row that could be reconciled, or why not.
@@ -45,14 +45,33 @@ fn factor_profile(row: &SegmentRow, factors: &FactorOutput, seg: usize) -> Facto
     p
 }
 
-/// Reconciles every toll row.
-pub fn run(
-    data: &StudyData,
-    toll: &[TollRecord],
-    rows: &[SegmentRow],
-    cont: &ContinuousOutput,
-    factors: &FactorOutput,
-) -> Vec<TollResult> {
+/// What the stage reads.
+#[derive(Debug, Clone, Copy)]
+pub struct TollInput<'a> {
+    /// The network (segment ids).
+    pub network: &'a Network,
+    /// Every station (to find a toll segment's own permanent counter).
+    pub stations: &'a StationList,
+    /// The billed rows.
+    pub toll: &'a [TollRecord],
+    /// The published segment rows (AADT, heavy share).
+    pub segments: &'a [SegmentRow],
+    /// The permanent counters' statistics (their accepted days).
+    pub continuous: &'a ContinuousOutput,
+    /// The factor groups (a segment's day-of-week and month factors).
+    pub factors: &'a FactorOutput,
+}
+
+/// Reconciles every toll row. The reconciliation has no settings of its own, and a row
+/// always gets a verdict, so the stage as a whole cannot fail.
+pub fn run(input: &TollInput) -> Vec<TollResult> {
+    let (data, toll, rows, cont, factors) = (
+        input,
+        input.toll,
+        input.segments,
+        input.continuous,
+        input.factors,
+    );
     let mut profiles: BTreeMap<usize, Box<dyn DailyProfile>> = BTreeMap::new();
     for t in toll {
         profiles.entry(t.segment).or_insert_with(|| {
