@@ -39,10 +39,42 @@ pub struct Settings {
 impl Settings {
     /// Parses the text of a study.toml.
     pub fn parse(text: &str) -> Result<Settings, InputError> {
-        toml::from_str(text).map_err(|e| InputError::BadConfig {
+        let s: Settings = toml::from_str(text).map_err(|e| InputError::BadConfig {
             path: PathBuf::from(SETTINGS_FILE),
             reason: e.to_string().trim_end().replace('\n', " "),
-        })
+        })?;
+        s.validate()?;
+        Ok(s)
+    }
+
+    /// Checks the values that types alone do not bound, before any work starts.
+    pub fn validate(&self) -> Result<(), InputError> {
+        let bad = |reason: String| InputError::BadConfig {
+            path: PathBuf::from(SETTINGS_FILE),
+            reason,
+        };
+        if let Some(y) = self.year {
+            if !(1900..=2200).contains(&y) {
+                return Err(bad(format!(
+                    "year = {y} is not a plausible study year (1900-2200)"
+                )));
+            }
+        }
+        let c = self.qc.min_coverage;
+        if !(c > 0.0 && c <= 1.0) {
+            return Err(bad(format!(
+                "[qc] min_coverage = {c} is a share of the day's quarter-hours: it must be in (0, 1]"
+            )));
+        }
+        if self.spatial.neighbours < 3 {
+            return Err(bad(format!(
+                "[spatial] neighbours = {} counted segments is too few for a kriging system with a drift: at least 3",
+                self.spatial.neighbours
+            )));
+        }
+        crate::qc::calendar::HolidayCalendar::new(&self.qc.holidays, 2000..=2000, 0)
+            .map_err(|e| bad(format!("[qc] holidays: {e}")))?;
+        Ok(())
     }
 
     /// Reads the study's study.toml, or the defaults when it has none.
@@ -90,6 +122,7 @@ impl Config {
         let mut settings = Settings::load(study)?;
         if year.is_some() {
             settings.year = year;
+            settings.validate()?;
         }
         Ok(Config {
             study: study.to_path_buf(),

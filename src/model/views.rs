@@ -46,6 +46,9 @@ pub fn two_way_hour(
     match (get(Direction::Fwd), get(Direction::Rev)) {
         (Some(f), Some(r)) => Some((f + r, Some(f), Some(r))),
         (Some(f), None) if oneway => Some((f, Some(f), Some(0))),
+        // One direction asked for alone (the per-direction statistics pass the other as
+        // excluded and `oneway` set): the rev volume is that direction's whole volume.
+        (None, Some(r)) if oneway => Some((r, Some(0), Some(r))),
         _ => None,
     }
 }

@@ -24,12 +24,18 @@
 //! | `incomplete` | quarter-hour coverage below `min_coverage` | rejected |
 //! | `flat_run` | the same non-zero value in consecutive hours, less likely than `flat_run_max_probability` under Poisson noise | rejected |
 //! | `zero_run` | consecutive zero hours where >= `zero_run_min_expected` vehicles are expected (half the typical volume) | rejected |
-//! | `spike` | one hour >= `spike_min_ratio` x expected and `spike_min_z` deviations above it | rejected |
-//! | `level_shift` | the day's level against the profile steps by >= `level_shift_min_log_ratio` at some hour | rejected |
+//! | `spike` | one hour >= `spike_min_ratio` x expected and `spike_min_z` deviations above it (at 00:00 and 23:00 also `spike_min_neighbour_ratio` x the hour across midnight) | rejected |
+//! | `level_shift` | the day's level against the profile steps by >= `level_shift_min_log_ratio` at some hour, with >= `level_shift_min_side_hours` hours each side | rejected when the off side holds >= `level_shift_min_off_share` of the day's volume or carries on into the neighbouring day, else flagged |
 //! | `daily_deviation` | the day total deviates from the typical total, at the seasonal level of the days within `daily_deviation_window_days`, by > `daily_deviation_max_share` and 3 Poisson deviations | flagged |
 //! | `swapped_directions` | fwd fits the rev profile and rev the fwd one much better than as recorded | rejected (fwd and rev) |
 //! | `directional_imbalance` | the fwd share of the two-way total moved from the typical share (or the split is beyond `directional_max_share`) | flagged |
 //! | `class_mismatch` | classified quarters differ from vehicle quarters, class sums differ from vehicles, too few light vehicles, or a heavy share far from the station's typical one | flagged |
+//!
+//! On the holidays of `[qc] holidays` and the travel days around them (see [`calendar`]),
+//! level steps that stay within the day are flagged, never rejected: an unusual level is what
+//! a holiday is (zero runs, flat runs and single-hour spikes stay faults).
+//! Events, incidents, storms and roadworks come and go within a day or last for whole days;
+//! neither is a fault, so a level step must cover most of the day or persist to reject.
 //!
 //! Zero runs, spikes and level shifts found against the day's own profile are only flagged
 //! when the day passes all three against the profile of another day type and fits that
@@ -69,6 +75,7 @@
 //! * Robust statistics (median, MAD x 1.4826 for normal consistency): standard.
 //! * Numeric thresholds are from no single source ("common practice"), see [`QcParams`].
 
+pub mod calendar;
 pub mod network;
 mod params;
 mod profile;
@@ -343,6 +350,9 @@ fn count_edge(
     }
 }
 
+/// Marks a level step that carries on into a neighbouring day: a fault, holiday or not.
+const CARRIES_ON: &str = "the off level carries on into";
+
 /// Checks one station: returns its findings and the number of direction-days looked at.
 pub(crate) fn check_station(
     station: usize,
@@ -353,6 +363,13 @@ pub(crate) fn check_station(
 ) -> (Vec<QcFinding>, usize) {
     let mut out = Vec::new();
     let mut count = 0;
+    let (Some(first), Some(last)) = (days.keys().next(), days.keys().next_back()) else {
+        return (out, 0);
+    };
+    let years = first.year()..=last.year();
+    // The list was checked when the settings were read; an unreadable one means no holidays.
+    let calendar = calendar::HolidayCalendar::new(&p.holidays, years, p.holiday_margin_days)
+        .unwrap_or_default();
     // Pass 1: series and coverage.
     let mut complete: BTreeMap<(Direction, NaiveDate), DaySeries> = BTreeMap::new();
     let mut classified: BTreeMap<(Direction, NaiveDate), &crate::model::DirectionDay> =
@@ -449,21 +466,88 @@ pub(crate) fn check_station(
         if let Some(t) = rules::flat_run(s, scaled, p) {
             structural.push((QcRule::FlatRun, t));
         }
-        // The rules that test the day against a profile (or, without one, its neighbours).
+        let prev_day = date.pred_opt().and_then(|x| complete.get(&(*d, x)));
+        let next_day = date.succ_opt().and_then(|x| complete.get(&(*d, x)));
+        let across = (
+            prev_day.and_then(|x| x.values.last().copied()),
+            next_day.and_then(|x| x.values.first().copied()),
+        );
+        // The rules that test the day against a profile (or, without one, its neighbours):
+        // what would reject the day, and level steps that only flag it.
         let against = |pr: Option<&profile::Profile>| {
             let mut v = Vec::new();
+            let mut soft = Vec::new();
             if let Some(t) = rules::zero_run(s, pr, p) {
                 v.push((QcRule::ZeroRun, t));
             }
-            if let Some(t) = rules::spike(s, pr, p) {
+            if let Some(t) = rules::spike(s, pr, across, p) {
                 v.push((QcRule::Spike, t));
             }
-            if let Some(t) = pr.and_then(|pr| rules::level_shift(s, pr, p)) {
-                v.push((QcRule::LevelShift, t));
+            let persists = |step: &rules::LevelStep| {
+                let neighbour = if step.after_is_off() {
+                    next_day
+                } else {
+                    prev_day
+                };
+                neighbour.and_then(|nd| {
+                    let np = profile_of(*d, nd)?;
+                    let hours = p.level_shift_min_side_hours;
+                    let r = rules::edge_ratio(nd, np, hours, step.after_is_off());
+                    Some(step.persists(r, p.level_shift_min_log_ratio))
+                }) == Some(true)
+            };
+            // A long off side is looked at first; a short one only counts when it carries on
+            // into the neighbouring day (a fault that began late, or ended early).
+            let step = pr.and_then(|pr| {
+                rules::level_step(s, pr, p.level_shift_min_side_hours, p)
+                    .or_else(|| rules::level_step(s, pr, 1, p).filter(|st| persists(st)))
+            });
+            if let Some(step) = step {
+                let persists = persists(&step);
+                let t = step.detail(s);
+                if persists {
+                    let side = if step.after_is_off() {
+                        "next"
+                    } else {
+                        "previous"
+                    };
+                    v.push((
+                        QcRule::LevelShift,
+                        format!("{t}; {CARRIES_ON} the {side} day"),
+                    ));
+                } else if short || step.off_share() >= p.level_shift_min_off_share {
+                    // A short count has too few days of its own to show whether a step
+                    // persists: any step of a long enough off side rejects its day.
+                    v.push((QcRule::LevelShift, t));
+                } else {
+                    soft.push((
+                        QcRule::LevelShift,
+                        format!(
+                            "{t}; the step holds {:.0} % of the day's typical volume and does not carry on into the {} day (an event, incident or weather?)",
+                            step.off_share() * 100.0,
+                            if step.after_is_off() { "next" } else { "previous" }
+                        ),
+                    ));
+                }
             }
-            v
+            (v, soft)
         };
-        let own = against(prof);
+        let (mut own, soft) = against(prof);
+        let holiday = calendar.holiday(*date);
+        let mut holiday_list = Vec::new();
+        if let Some(name) = holiday {
+            // A level unusual for the day type is the holiday's: flagged. Zero runs and
+            // single-hour spikes stay structural (a dead or glitching sensor is one on a
+            // holiday too), and so does a step that carries on into the next day.
+            let (unusual, structural_kinds): (Vec<_>, Vec<_>) = own
+                .into_iter()
+                .partition(|(r, t)| *r == QcRule::LevelShift && !t.contains(CARRIES_ON));
+            own = structural_kinds;
+            holiday_list = unusual
+                .into_iter()
+                .map(|(r, t)| (r, format!("{t}; {name} (holiday list)")))
+                .collect();
+        }
         let mut holiday_shape = Vec::new();
         if !own.is_empty() && prof.is_some() {
             // A holiday has the shape of another day type (a Sunday-like Thursday): when the
@@ -476,7 +560,7 @@ pub(crate) fn check_station(
                 .find(|o| {
                     // It must fit that profile clearly better in shape, too.
                     let own_misfit = prof.map_or(0.0, |pr| rules::misfit(s, pr, p));
-                    against(Some(o)).is_empty() && 2.0 * rules::misfit(s, o, p) < own_misfit
+                    against(Some(o)).0.is_empty() && 2.0 * rules::misfit(s, o, p) < own_misfit
                 });
             if let Some(o) = other {
                 holiday_shape = own
@@ -495,7 +579,7 @@ pub(crate) fn check_station(
         for (rule, t) in structural {
             push(rule, QcAction::Rejected, t);
         }
-        for (rule, t) in holiday_shape {
+        for (rule, t) in holiday_shape.into_iter().chain(holiday_list).chain(soft) {
             push(rule, QcAction::Flagged, t);
         }
         if !rejected.contains(&(*d, *date)) {

@@ -64,8 +64,29 @@ pub struct QcParams {
     /// Smallest standardised size of that change (Poisson, profile and shape noise). Default 4
     /// (with about 20 possible break hours a day, still well under 1 false step in 1000 days).
     pub level_shift_min_z: f64,
+    /// Holidays of the study's calendar (see [`super::calendar`]): rule names such as
+    /// `thanksgiving`, `MM-DD` for a fixed-date holiday, `YYYY-MM-DD` for one date. On these
+    /// days and the travel days around them level steps within the day are flagged, never
+    /// rejected. Default: the US federal holidays.
+    pub holidays: Vec<String>,
+    /// Days either side of New Year, Independence Day, Thanksgiving and Christmas that count
+    /// as travel days. Default 1.
+    pub holiday_margin_days: u32,
+
     /// Smallest typical volume on each side of the break, vehicles. Default 50.
     pub level_shift_min_side_volume: f64,
+    /// Fewest hours on each side of the break, hours. Default 5: real evenings, nights and
+    /// early mornings depart from a median profile for one to four hours (measured on a real
+    /// freeway counter, where breaks that close to midnight were 94 % of false steps).
+    pub level_shift_min_side_hours: usize,
+    /// A step rejects its day only when the side that departs from the typical level holds at
+    /// least this share of the day's typical volume, or carries on into the neighbouring day;
+    /// otherwise it is flagged (an event evening, an incident, a storm). Share 0..1. Default
+    /// 0.4 (common practice: "most of the day" at the volume-weighted level).
+    pub level_shift_min_off_share: f64,
+    /// A spike in the first or last hour of the day must be at least this many times the hour
+    /// next to it across midnight. Default 1.5 (a decline through midnight stays under 1).
+    pub spike_min_neighbour_ratio: f64,
 
     /// Relative noise of an hour around the day's typical shape beyond Poisson noise, share of
     /// the expected volume. Default 0.03 (common practice; the profile's own MAD is used where
@@ -137,6 +158,11 @@ impl Default for QcParams {
             level_shift_min_log_ratio: 0.25,
             level_shift_min_z: 4.0,
             level_shift_min_side_volume: 50.0,
+            level_shift_min_side_hours: 5,
+            holidays: super::calendar::default_holidays(),
+            holiday_margin_days: 1,
+            level_shift_min_off_share: 0.4,
+            spike_min_neighbour_ratio: 1.5,
             shape_noise_share: 0.03,
             daily_deviation_max_share: 0.20,
             daily_deviation_window_days: 14,

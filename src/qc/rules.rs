@@ -157,7 +157,16 @@ fn hour_variance(e: f64, spread: f64, days: usize, p: &QcParams) -> f64 {
 }
 
 /// Spike: one hour far above what the day's level and the profile (or its neighbours) imply.
-pub(crate) fn spike(s: &DaySeries, profile: Option<&Profile>, p: &QcParams) -> Option<String> {
+/// `across` holds the hours next to the day across midnight (the previous day's last hour,
+/// the next day's first), where known: an edge hour is a neighbour of them too, and a spike
+/// at 00:00 or 23:00 must stand `spike_min_neighbour_ratio` above that hour, so that a smooth
+/// decline through midnight is never taken for a spike.
+pub(crate) fn spike(
+    s: &DaySeries,
+    profile: Option<&Profile>,
+    across: (Option<f64>, Option<f64>),
+    p: &QcParams,
+) -> Option<String> {
     let v = &s.values;
     let n = v.len();
     let mut best: Option<(f64, usize, f64)> = None; // (z, slot, expected)
@@ -173,8 +182,8 @@ pub(crate) fn spike(s: &DaySeries, profile: Option<&Profile>, p: &QcParams) -> O
                 (exp, hour_variance(exp, spread, pr.days, p))
             }
             _ => {
-                let prev = (k > 0).then(|| v[k - 1]);
-                let next = (k + 1 < n).then(|| v[k + 1]);
+                let prev = if k > 0 { Some(v[k - 1]) } else { across.0 };
+                let next = if k + 1 < n { Some(v[k + 1]) } else { across.1 };
                 let Some(r) = prev.into_iter().chain(next).reduce(f64::max) else {
                     continue;
                 };
@@ -184,7 +193,14 @@ pub(crate) fn spike(s: &DaySeries, profile: Option<&Profile>, p: &QcParams) -> O
         };
         let excess = v[k] - exp;
         let z = excess / var.sqrt();
-        if v[k] >= p.spike_min_ratio * exp
+        let edge_neighbour = match k {
+            0 => across.0,
+            _ if k + 1 == n => across.1,
+            _ => None,
+        };
+        let stands_out = edge_neighbour.is_none_or(|x| v[k] >= p.spike_min_neighbour_ratio * x);
+        if stands_out
+            && v[k] >= p.spike_min_ratio * exp
             && excess >= p.spike_min_excess
             && z >= p.spike_min_z
             && best.is_none_or(|b| z > b.0)
@@ -210,8 +226,76 @@ pub(crate) fn spike(s: &DaySeries, profile: Option<&Profile>, p: &QcParams) -> O
     })
 }
 
-/// Level shift: the observed-to-typical ratio changes by a step at some hour of the day.
-pub(crate) fn level_shift(s: &DaySeries, profile: &Profile, p: &QcParams) -> Option<String> {
+/// A step of level within one day, found by [`level_step`].
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct LevelStep {
+    /// First slot after the break.
+    pub slot: usize,
+    /// Observed-to-typical ratio before the break.
+    pub before: f64,
+    /// Observed-to-typical ratio from the break on.
+    pub after: f64,
+    /// Standardised size of the step.
+    pub z: f64,
+    /// Share of the day's typical volume from the break on.
+    pub after_share: f64,
+}
+
+impl LevelStep {
+    /// Whether the side after the break is the one that departs from the typical level.
+    pub(crate) fn after_is_off(&self) -> bool {
+        self.after.ln().abs() >= self.before.ln().abs()
+    }
+
+    /// Share of the day's typical volume on the side that departs from the typical level.
+    pub(crate) fn off_share(&self) -> f64 {
+        if self.after_is_off() {
+            self.after_share
+        } else {
+            1.0 - self.after_share
+        }
+    }
+
+    /// Whether `neighbour`, the observed-to-typical ratio of the neighbouring day's hours next
+    /// to the off side, carries the off level on: itself a step of `min_log_ratio` away from
+    /// the day's normal level, and closer to the off level than to the normal one.
+    pub(crate) fn persists(&self, neighbour: f64, min_log_ratio: f64) -> bool {
+        let (off, normal) = if self.after_is_off() {
+            (self.after, self.before)
+        } else {
+            (self.before, self.after)
+        };
+        let nb = neighbour.max(1e-9);
+        let from_normal = (nb / normal).ln().abs();
+        from_normal >= min_log_ratio && (nb / off).ln().abs() < from_normal
+    }
+
+    pub(crate) fn detail(&self, s: &DaySeries) -> String {
+        format!(
+            "level {:.0} % of typical before {} and {:.0} % from then on (x{:.2}, z {:.0})",
+            self.before * 100.0,
+            s.label(self.slot),
+            self.after * 100.0,
+            self.after / self.before,
+            self.z
+        )
+    }
+}
+
+/// Level step: the observed-to-typical ratio changes by a step at some hour of the day, with
+/// `level_shift_min_side_volume` typical vehicles on each side and at least `min_off_hours`
+/// hours on the side that departs from the typical level (one to four off hours at either
+/// end of the day is how real evening and early-morning traffic departs from a median
+/// profile, not a fault). Whether
+/// the step rejects the day is decided by the caller: a sensor fault (lanes lost, a
+/// miscalibrated loop) covers most of the day or carries on into the next day, while events,
+/// incidents and weather come and go within the day.
+pub(crate) fn level_step(
+    s: &DaySeries,
+    profile: &Profile,
+    min_off_hours: usize,
+    p: &QcParams,
+) -> Option<LevelStep> {
     let e = profile.expected(s);
     let v = &s.values;
     let n = v.len();
@@ -221,12 +305,13 @@ pub(crate) fn level_shift(s: &DaySeries, profile: &Profile, p: &QcParams) -> Opt
     let spread2: Vec<f64> = s.hours.iter().map(|&h| profile.spread[h].powi(2)).collect();
     let total_s2: f64 = spread2.iter().sum();
     let (mut ao, mut ae, mut as2) = (0.0, 0.0, 0.0);
-    let mut best: Option<(f64, usize, f64, f64)> = None; // (z, slot, ratio before, ratio after)
+    let mut best: Option<LevelStep> = None;
     for k in 1..n {
         ao += v[k - 1];
         ae += e[k - 1];
         as2 += spread2[k - 1];
         let (bo, be, bs2) = (total_o - ao, total_e - ae, total_s2 - as2);
+
         if sc * ae < p.level_shift_min_side_volume || sc * be < p.level_shift_min_side_volume {
             continue;
         }
@@ -239,23 +324,38 @@ pub(crate) fn level_shift(s: &DaySeries, profile: &Profile, p: &QcParams) -> Opt
             + 2.0 * p.shape_noise_share.powi(2)
             + 1.57 * (as2 / (ae * ae) + bs2 / (be * be)) / days;
         let z = r.abs() / var.sqrt();
+        // The side that departs from the typical level must be long enough.
+        let off_hours = if rb.ln().abs() >= ra.ln().abs() {
+            n - k
+        } else {
+            k
+        };
         if r.abs() >= p.level_shift_min_log_ratio
             && z >= p.level_shift_min_z
-            && best.is_none_or(|b| z > b.0)
+            && off_hours >= min_off_hours.max(1)
+            && best.is_none_or(|b| z > b.z)
         {
-            best = Some((z, k, ra, rb));
+            best = Some(LevelStep {
+                slot: k,
+                before: ra,
+                after: rb,
+                z,
+                after_share: be / total_e.max(1e-9),
+            });
         }
     }
-    best.map(|(z, k, ra, rb)| {
-        format!(
-            "level {:.0} % of typical before {} and {:.0} % from then on (x{:.2}, z {:.0})",
-            ra * 100.0,
-            s.label(k),
-            rb * 100.0,
-            rb / ra,
-            z
-        )
-    })
+    best
+}
+
+/// Observed-to-typical ratio of the first (`from_start`) or last `hours` hours of a day.
+pub(crate) fn edge_ratio(s: &DaySeries, profile: &Profile, hours: usize, from_start: bool) -> f64 {
+    let e = profile.expected(s);
+    let n = s.values.len();
+    let h = hours.clamp(1, n.max(1));
+    let range = if from_start { 0..h } else { n - h..n };
+    let o: f64 = s.values[range.clone()].iter().sum();
+    let t: f64 = e[range].iter().sum();
+    (o + 0.5) / t.max(0.5)
 }
 
 /// Daily deviation: the day total against the typical total of its day type, scaled by the
