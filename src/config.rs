@@ -15,11 +15,14 @@ use crate::spatial::stage::SpatialParams;
 
 /// Everything `study.toml` may say. Every key has a default; unknown keys are an error so a
 /// misspelt threshold is never silently ignored.
-#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[derive(Debug, Clone, Serialize, Deserialize)]
 #[serde(default, deny_unknown_fields)]
 pub struct Settings {
     /// The study year. Default: the calendar year holding the most permanent-counter records.
     pub year: Option<i32>,
+    /// Largest share (0..1) of a file's rows that may be rejected before the run raises a
+    /// data-loss alarm (exit code 1). Default 0.01.
+    pub max_rejected_share: f64,
     /// Count quality control.
     pub qc: QcParams,
     /// Permanent-counter statistics.
@@ -34,6 +37,22 @@ pub struct Settings {
     pub toll: crate::toll::reconcile::TollRates,
     /// Design period and pavement type for the design inputs.
     pub design: crate::design::stage::DesignParams,
+}
+
+impl Default for Settings {
+    fn default() -> Self {
+        Settings {
+            year: None,
+            max_rejected_share: 0.01,
+            qc: QcParams::default(),
+            continuous: ContinuousParams::default(),
+            factors: FactorParams::default(),
+            expansion: ExpansionParams::default(),
+            spatial: SpatialParams::default(),
+            toll: Default::default(),
+            design: Default::default(),
+        }
+    }
 }
 
 impl Settings {
@@ -59,6 +78,12 @@ impl Settings {
                     "year = {y} is not a plausible study year (1900-2200)"
                 )));
             }
+        }
+        let m = self.max_rejected_share;
+        if !(0.0..=1.0).contains(&m) {
+            return Err(bad(format!(
+                "max_rejected_share = {m} is a share of a file's rows: it must be in [0, 1]"
+            )));
         }
         let c = self.qc.min_coverage;
         if !(c > 0.0 && c <= 1.0) {

@@ -56,12 +56,17 @@ fn dispatch(cli: &Cli) -> anyhow::Result<u8> {
             if !cli.quiet {
                 print!("{report}");
             }
-            Ok(report.exit_code() as u8)
+            let alarms = report.loss_alarms(config.settings.max_rejected_share);
+            for a in &alarms {
+                eprintln!("alarm: {a}");
+            }
+            Ok(u8::from(!alarms.is_empty()))
         }
         Command::Run { study, out, year } => {
             let config = Config::new(study, Some(out), *year, cli.quiet)?;
             let results = pipeline::compute(&config)?;
             let report = roadtally::output::write_all(&results, &config.settings, out)?;
+            let alarms = pipeline::alarms(&results, &config.settings);
             if !cli.quiet {
                 print!("{}", report.check);
                 let q = &report.qc;
@@ -92,7 +97,10 @@ fn dispatch(cli: &Cli) -> anyhow::Result<u8> {
                     out.display()
                 );
             }
-            Ok(report.check.exit_code() as u8)
+            for a in &alarms {
+                eprintln!("alarm: {a}");
+            }
+            Ok(u8::from(!alarms.is_empty()))
         }
         Command::Calibrate { study, out, year } => {
             let config = Config::new(study, None, *year, cli.quiet)?;

@@ -57,9 +57,28 @@ impl CheckReport {
         self.files.iter().map(|f| f.rejected).sum()
     }
 
-    /// The contract's exit code: 0 when every row was used, 1 when some were rejected.
-    pub fn exit_code(&self) -> i32 {
-        i32::from(self.rows_rejected() > 0)
+    /// Data-loss alarms: every file that lost more than `max_share` of its rows.
+    pub fn loss_alarms(&self, max_share: f64) -> Vec<String> {
+        self.files
+            .iter()
+            .filter(|f| f.rejected > 0 && f.rejected as f64 > max_share * f.rows.max(1) as f64)
+            .map(|f| {
+                format!(
+                    "{} lost {} of its {} rows ({:.1} %, more than max_rejected_share = {:.1} %): see rejected_rows.csv",
+                    f.file,
+                    f.rejected,
+                    f.rows,
+                    100.0 * f.rejected as f64 / f.rows.max(1) as f64,
+                    100.0 * max_share
+                )
+            })
+            .collect()
+    }
+
+    /// The exit code: 0 when the rejected rows stay within `max_share` of every file (they
+    /// are listed in rejected_rows.csv either way), 1 when a file lost more.
+    pub fn exit_code(&self, max_share: f64) -> i32 {
+        i32::from(!self.loss_alarms(max_share).is_empty())
     }
 }
 
@@ -132,6 +151,28 @@ pub struct Results {
     pub design: Vec<crate::design::stage::DesignRow>,
     /// Network totals.
     pub totals: Vec<crate::totals::Total>,
+}
+
+/// The alarms of a finished run (exit code 1): data loss beyond `max_rejected_share` in a
+/// file, and a run without its foundation (no permanent counter gave statistics for the
+/// study year, so no factor comes from the study's own data).
+pub fn alarms(r: &Results, settings: &crate::config::Settings) -> Vec<String> {
+    let mut out = check_report(&r.data, Some(r.year)).loss_alarms(settings.max_rejected_share);
+    if r.continuous.stations.is_empty() {
+        let why = r
+            .continuous
+            .skipped
+            .first()
+            .map_or("the study has no permanent counter".to_string(), |(_, w)| {
+                w.clone()
+            });
+        out.push(format!(
+            "no permanent counter gave statistics for {} ({} skipped; first: {why}): every factor is a flat default and every interval rests on assumptions, not on the study's data",
+            r.year,
+            r.continuous.skipped.len()
+        ));
+    }
+    out
 }
 
 /// Runs every stage and keeps their outputs (no files written).
