@@ -1,0 +1,122 @@
+//! The spatial tables: leave-one-out cross-validation and the fitted spatial model.
+
+use super::col;
+use crate::model::StudyData;
+use crate::output::table::{Cell, Format, Table};
+use crate::spatial::stage::{Interval, SpatialOutput};
+
+fn ape(est: f64, obs: f64) -> f64 {
+    100.0 * (est - obs).abs() / obs
+}
+
+/// `cross_validation.csv`: leave-one-out errors and coverage per estimator and class group.
+pub fn cross_validation(data: &StudyData, sp: &SpatialOutput) -> Table {
+    let mut t = Table::new(
+        "cross_validation",
+        "Leave-one-out validation over counted segments",
+        vec![
+            col("estimator", "", Format::Text),
+            col("class_group", "", Format::Text),
+            col("segments", "", Format::Integer),
+            col("median_ape_pct", "%", Format::Decimal(2)),
+            col("p90_ape_pct", "%", Format::Decimal(2)),
+            col("coverage95", "share", Format::Share),
+        ],
+    );
+    type Pick = fn(&crate::spatial::stage::CvPoint) -> Interval;
+    let estimators: [(&str, Pick); 3] = [
+        ("kriging_external_drift", |p| p.kriged),
+        ("drift_regression", |p| p.regression),
+        ("class_area_mean", |p| p.class_mean),
+    ];
+    let mut groups: Vec<&str> = sp
+        .cv
+        .iter()
+        .map(|p| {
+            data.network.segments[p.segment]
+                .functional_class
+                .broad_group()
+        })
+        .collect();
+    groups.sort();
+    groups.dedup();
+    groups.push("all");
+    for (name, f) in estimators {
+        for g in &groups {
+            let pts: Vec<_> = sp
+                .cv
+                .iter()
+                .filter(|p| {
+                    *g == "all"
+                        || data.network.segments[p.segment]
+                            .functional_class
+                            .broad_group()
+                            == *g
+                })
+                .collect();
+            if pts.is_empty() {
+                continue;
+            }
+            let mut apes: Vec<f64> = pts.iter().map(|p| ape(f(p).value, p.observed)).collect();
+            let cov =
+                pts.iter().filter(|p| f(p).covers(p.observed)).count() as f64 / pts.len() as f64;
+            t.push(vec![
+                Cell::from(name),
+                Cell::from(*g),
+                Cell::from(pts.len()),
+                Cell::from(crate::expansion::calibration::quantile(&mut apes, 0.5)),
+                Cell::from(crate::expansion::calibration::quantile(&mut apes, 0.9)),
+                Cell::from(cov),
+            ]);
+        }
+    }
+    t
+}
+
+/// The spatial model: regression coefficients and covariance parameters.
+pub fn spatial_model(sp: &SpatialOutput) -> Table {
+    let mut t = Table::new(
+        "spatial_model",
+        "Drift regression on ln AADT and the fitted covariance model",
+        vec![
+            col("term", "", Format::Text),
+            col("value", "", Format::Decimal(6)),
+            col("note", "", Format::Text),
+        ],
+    );
+    for (n, v) in &sp.coefficients {
+        t.push(vec![
+            Cell::from(format!("beta_{n}")),
+            Cell::from(*v),
+            Cell::Empty,
+        ]);
+    }
+    t.push(vec![
+        Cell::from("residual_variance"),
+        Cell::from(sp.residual_var),
+        Cell::from("ln AADT squared"),
+    ]);
+    if let Some(m) = &sp.model {
+        t.push(vec![
+            Cell::from("partial_sill"),
+            Cell::from(m.partial_sill),
+            Cell::from("ln AADT squared"),
+        ]);
+        t.push(vec![
+            Cell::from("practical_range_km"),
+            Cell::from(m.range_km),
+            Cell::from("km"),
+        ]);
+        t.push(vec![
+            Cell::from("nugget"),
+            Cell::from(m.nugget),
+            Cell::from("micro-scale variance"),
+        ]);
+    }
+    t.push(vec![
+        Cell::from("model"),
+        Cell::Empty,
+        Cell::from(sp.model_note.as_str()),
+    ]);
+    t
+}
