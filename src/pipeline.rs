@@ -159,13 +159,10 @@ pub struct Results {
 pub fn alarms(r: &Results, settings: &crate::config::Settings) -> Vec<String> {
     let mut out = check_report(&r.data, Some(r.year)).loss_alarms(settings.max_rejected_share);
     if r.continuous.stations.is_empty() {
-        let why = r
-            .continuous
-            .skipped
-            .first()
-            .map_or("the study has no permanent counter".to_string(), |(_, w)| {
-                w.clone()
-            });
+        let why = r.continuous.skipped.first().map_or(
+            "the study has no permanent counter".to_string(),
+            |(_, w)| w.clone(),
+        );
         out.push(format!(
             "no permanent counter gave statistics for {} ({} skipped; first: {why}): every factor is a flat default and every interval rests on assumptions, not on the study's data",
             r.year,
