@@ -7,16 +7,25 @@ use super::*;
 const HEADER: &str = "station_id,direction,start,minutes,vehicles,axles\n";
 const HOURLY: &str = "station_id,direction,start,minutes,vehicles\n";
 
+/// The only alarm of a run whose one permanent counter has no usable day is the foundation
+/// alarm: exit 1, and no data-loss alarm.
+fn only_the_foundation_alarm(out: &Output) {
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(1), "{err}");
+    assert!(
+        err.contains("alarm: no permanent counter gave statistics"),
+        "{err}"
+    );
+    assert!(!err.contains(" lost "), "{err}");
+}
+
 #[test]
-fn clean_study_exits_zero_and_logs_nothing() {
+fn clean_rows_are_all_used_and_only_the_missing_foundation_is_an_alarm() {
+    // One day of a constant 100 veh/h: every row is read, and quality control rejects the
+    // day as a flat run, so no permanent counter gives statistics.
     let s = Study::new(&format!("{HOURLY}{}", hourly_rows("C1", "fwd", 0..24, 100)));
     let out = s.run();
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    only_the_foundation_alarm(&out);
     let rej = s.output_csv("rejected_rows.csv");
     assert_eq!(rej.len(), 1, "header only");
     assert_eq!(rej[0], ["file", "line", "column", "value", "reason"]);
@@ -183,12 +192,9 @@ fn bom_crlf_quotes_and_column_order_are_read() {
 60,2025-06-03T01:00:00-04:00,90,C1,fwd,\r\n";
     let s = Study::new(text);
     let out = s.run();
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    // Both rows read (two hours only, so no counter statistics: the foundation alarm).
+    only_the_foundation_alarm(&out);
+    assert_eq!(s.output_csv("rejected_rows.csv").len(), 1, "header only");
 }
 
 #[test]
@@ -361,12 +367,8 @@ fn a_study_without_permanent_counters_still_publishes_every_segment() {
     s.write("stations.csv", "station_id,segment_id,kind\nK1,S1,short\n");
     s.write("study.toml", "year = 2025\n");
     let out = s.run();
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    // Published, and loudly: without a permanent counter every factor is a default.
+    only_the_foundation_alarm(&out);
     let seg = s.output_csv("segment_statistics.csv");
     assert_eq!(seg.len(), 3);
     for r in &seg[1..] {
