@@ -386,3 +386,21 @@ fn a_study_without_permanent_counters_still_publishes_every_segment() {
     std::fs::remove_dir_all(s.out()).unwrap();
     assert_fatal(&s, "year");
 }
+
+/// `bench` never deletes a folder it did not make: a folder with an unrelated file and no
+/// count files is refused with a message, and the file is still there.
+#[test]
+fn bench_refuses_a_foreign_folder() {
+    let dir = tempfile::tempdir().unwrap();
+    let keep = dir.path().join("notes.txt");
+    std::fs::write(&keep, "mine").unwrap();
+    let out = roadtally()
+        .args(["bench", "--dir"])
+        .arg(dir.path())
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{err}");
+    assert!(err.contains("refusing"), "{err}");
+    assert_eq!(std::fs::read_to_string(&keep).unwrap(), "mine");
+}
