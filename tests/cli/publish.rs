@@ -255,3 +255,45 @@ fn copy_dir(from: &Path, to: &Path) {
         }
     }
 }
+
+/// Every two-way permanent counter of the demo has a `rev` row, and fwd + rev matches the
+/// two-way AADT: within 1 %, not exactly, because each direction averages its own accepted
+/// days (a day quality control rejects in one direction still counts in the other).
+/// Common practice: the directional AADTs of a counter sum to its two-way AADT.
+#[test]
+fn both_directions_are_published_and_add_up() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    run_demo(&out);
+    let rows = csv_rows(&out.join("station_statistics.csv"));
+    let col = |name: &str| rows[0].iter().position(|c| c == name).unwrap();
+    let (id, dir_col, simple) = (col("station_id"), col("direction"), col("aadt_simple"));
+    let mut by: std::collections::BTreeMap<&str, [Option<f64>; 3]> = Default::default();
+    for r in &rows[1..] {
+        let k = match r[dir_col].as_str() {
+            "both" => 0,
+            "fwd" => 1,
+            "rev" => 2,
+            other => panic!("direction {other}"),
+        };
+        by.entry(r[id].as_str()).or_default()[k] = r[simple].parse().ok();
+    }
+    assert_eq!(by.len(), 10, "every demo counter is two-way");
+    for (station, [both, fwd, rev]) in by {
+        let (b, f, r) = (
+            both.unwrap(),
+            fwd.unwrap(),
+            rev.unwrap_or_else(|| panic!("{station} has no rev row")),
+        );
+        assert!(
+            ((f + r) / b - 1.0).abs() < 0.01,
+            "{station}: {f} + {r} against {b}"
+        );
+    }
+    let seg = csv_rows(&out.join("segment_statistics.csv"));
+    let rev = seg[0].iter().position(|c| c == "aadt_rev").unwrap();
+    let basis = seg[0].iter().position(|c| c == "basis").unwrap();
+    for r in seg[1..].iter().filter(|r| r[basis] == "continuous") {
+        assert!(r[rev].parse::<f64>().is_ok_and(|v| v > 0.0), "{r:?}");
+    }
+}
