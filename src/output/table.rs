@@ -131,9 +131,10 @@ impl Table {
         }
     }
 
-    /// Appends a row; panics in debug builds when its length is wrong (a programming error).
+    /// Appends a row; panics, in release builds too, when its length is wrong: a programming
+    /// error that would otherwise shift columns in the CSV and truncate rows in the workbook.
     pub fn push(&mut self, row: Vec<Cell>) {
-        debug_assert_eq!(
+        assert_eq!(
             row.len(),
             self.columns.len(),
             "row length in table {}",
@@ -175,5 +176,14 @@ mod tests {
         assert_eq!(cell_text(&Cell::Num(0.1), Format::Share), "0.1000");
         assert_eq!(cell_text(&Cell::from(f64::NAN), Format::Share), "");
         assert_eq!(cell_text(&Cell::Int(-3), Format::Integer), "-3");
+    }
+
+    /// CI runs release tests: the row-length check must hold there too.
+    #[test]
+    #[should_panic(expected = "row length in table t")]
+    fn a_row_of_the_wrong_length_is_refused_in_release_builds() {
+        let mut t = Table::new("t", "T", vec![Column::new("a", "", Format::Text)]);
+        t.push(vec![Cell::Int(1)]);
+        t.push(vec![Cell::Int(1), Cell::Int(2)]);
     }
 }
