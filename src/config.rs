@@ -97,8 +97,10 @@ impl Settings {
                 self.spatial.neighbours
             )));
         }
-        crate::qc::calendar::HolidayCalendar::new(&self.qc.holidays, 2000..=2000, 0)
-            .map_err(|e| bad(format!("[qc] holidays: {e}")))?;
+        for h in &self.qc.holidays {
+            h.parse::<crate::qc::calendar::Holiday>()
+                .map_err(|e| bad(format!("[qc] holidays: {e}")))?;
+        }
         Ok(())
     }
 

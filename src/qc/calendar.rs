@@ -262,8 +262,8 @@ mod tests {
         }
     }
 
-    /// Easter Sundays from published tables (2024-03-31, 2025-04-20, 2026-04-05; common
-    /// knowledge, checkable in any almanac).
+    /// Easter Sundays as printed in almanacs (2024-03-31, 2025-04-20, 2026-04-05); the dates
+    /// are from memory.
     #[test]
     fn easter_matches_the_almanac() {
         assert_eq!(easter_sunday(2024), Some(d(2024, 3, 31)));

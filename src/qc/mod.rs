@@ -271,6 +271,13 @@ pub fn run(input: &QcInput, params: &QcParams) -> QcOutput {
             .and_then(|s| network.segments.get(s.segment))
             .is_some_and(|s| s.oneway)
     };
+    // One calendar for the whole store: the holiday list is read once, not per station.
+    let years = store
+        .days
+        .iter()
+        .filter_map(|d| Some((d.keys().next()?.year(), d.keys().next_back()?.year())))
+        .reduce(|a, b| (a.0.min(b.0), a.1.max(b.1)));
+    let calendar = holiday_calendar(years, params);
     let per_station: Vec<(Vec<QcFinding>, usize)> = store
         .days
         .par_iter()
@@ -280,7 +287,7 @@ pub fn run(input: &QcInput, params: &QcParams) -> QcOutput {
                 .stations
                 .get(si)
                 .is_some_and(|s| s.kind == crate::model::StationKind::Short);
-            check_station(si, days, oneway(si), short, params)
+            check_station_in(si, days, oneway(si), short, &calendar, params)
         })
         .collect();
     let mut findings = Vec::new();
@@ -353,7 +360,19 @@ fn count_edge(
 /// Marks a level step that carries on into a neighbouring day: a fault, holiday or not.
 const CARRIES_ON: &str = "the off level carries on into";
 
-/// Checks one station: returns its findings and the number of direction-days looked at.
+/// The holiday calendar of `[qc] holidays` over the (first, last) years of the counts. The
+/// list was checked when the settings were read; an unreadable one means no holidays.
+fn holiday_calendar(years: Option<(i32, i32)>, p: &QcParams) -> calendar::HolidayCalendar {
+    years
+        .and_then(|(a, b)| {
+            calendar::HolidayCalendar::new(&p.holidays, a..=b, p.holiday_margin_days).ok()
+        })
+        .unwrap_or_default()
+}
+
+/// Checks one station with the calendar of its own years: returns its findings and the
+/// number of direction-days looked at.
+#[cfg(test)]
 pub(crate) fn check_station(
     station: usize,
     days: &BTreeMap<NaiveDate, DayCounts>,
@@ -361,15 +380,26 @@ pub(crate) fn check_station(
     short: bool,
     p: &QcParams,
 ) -> (Vec<QcFinding>, usize) {
+    let years = days
+        .keys()
+        .next()
+        .zip(days.keys().next_back())
+        .map(|(a, b)| (a.year(), b.year()));
+    check_station_in(station, days, oneway, short, &holiday_calendar(years, p), p)
+}
+
+/// Checks one station against `calendar`: returns its findings and the number of
+/// direction-days looked at.
+fn check_station_in(
+    station: usize,
+    days: &BTreeMap<NaiveDate, DayCounts>,
+    oneway: bool,
+    short: bool,
+    calendar: &calendar::HolidayCalendar,
+    p: &QcParams,
+) -> (Vec<QcFinding>, usize) {
     let mut out = Vec::new();
     let mut count = 0;
-    let (Some(first), Some(last)) = (days.keys().next(), days.keys().next_back()) else {
-        return (out, 0);
-    };
-    let years = first.year()..=last.year();
-    // The list was checked when the settings were read; an unreadable one means no holidays.
-    let calendar = calendar::HolidayCalendar::new(&p.holidays, years, p.holiday_margin_days)
-        .unwrap_or_default();
     // Pass 1: series and coverage.
     let mut complete: BTreeMap<(Direction, NaiveDate), DaySeries> = BTreeMap::new();
     let mut classified: BTreeMap<(Direction, NaiveDate), &crate::model::DirectionDay> =
@@ -483,7 +513,7 @@ pub(crate) fn check_station(
             if let Some(t) = rules::spike(s, pr, across, p) {
                 v.push((QcRule::Spike, t));
             }
-            let persists = |step: &rules::LevelStep| {
+            let carries_on = |step: &rules::LevelStep| {
                 let neighbour = if step.after_is_off() {
                     next_day
                 } else {
@@ -500,10 +530,10 @@ pub(crate) fn check_station(
             // into the neighbouring day (a fault that began late, or ended early).
             let step = pr.and_then(|pr| {
                 rules::level_step(s, pr, p.level_shift_min_side_hours, p)
-                    .or_else(|| rules::level_step(s, pr, 1, p).filter(|st| persists(st)))
+                    .or_else(|| rules::level_step(s, pr, 1, p).filter(|st| carries_on(st)))
             });
             if let Some(step) = step {
-                let persists = persists(&step);
+                let persists = carries_on(&step);
                 let t = step.detail(s);
                 if persists {
                     let side = if step.after_is_off() {

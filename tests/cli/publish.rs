@@ -202,35 +202,32 @@ fn degenerate_settings_and_years_are_named_never_blank() {
     )
     .unwrap();
     let out = dir.path().join("out0");
-    let o = roadtally()
-        .args(["run", "--quiet", "--out"])
-        .arg(&out)
-        .arg(&study)
-        .output()
-        .unwrap();
-    let err = String::from_utf8_lossy(&o.stderr);
-    assert_eq!(o.status.code(), Some(2), "{err}");
+    // Runs the study with `extra` options: (exit code, standard error).
+    let run = |extra: &[&str]| {
+        let o = roadtally()
+            .args(["run", "--quiet"])
+            .args(extra)
+            .arg("--out")
+            .arg(&out)
+            .arg(&study)
+            .output()
+            .unwrap();
+        (
+            o.status.code(),
+            String::from_utf8_lossy(&o.stderr).into_owned(),
+        )
+    };
+    let (code, err) = run(&[]);
+    assert_eq!(code, Some(2), "{err}");
     assert!(err.contains("neighbours"), "{err}");
     assert!(!out.exists());
     std::fs::write(study.join("study.toml"), "year = 2025\n").unwrap();
-    let o = roadtally()
-        .args(["run", "--quiet", "--year", "999999", "--out"])
-        .arg(&out)
-        .arg(&study)
-        .output()
-        .unwrap();
-    let err = String::from_utf8_lossy(&o.stderr);
-    assert_eq!(o.status.code(), Some(2), "{err}");
+    let (code, err) = run(&["--year", "999999"]);
+    assert_eq!(code, Some(2), "{err}");
     assert!(err.contains("999999"), "{err}");
     assert!(!out.exists());
-    let o = roadtally()
-        .args(["run", "--quiet", "--year", "2030", "--out"])
-        .arg(&out)
-        .arg(&study)
-        .output()
-        .unwrap();
-    let err = String::from_utf8_lossy(&o.stderr);
-    assert_eq!(o.status.code(), Some(1), "{err}");
+    let (code, err) = run(&["--year", "2030"]);
+    assert_eq!(code, Some(1), "{err}");
     assert!(
         err.contains("alarm: no permanent counter gave statistics for 2030"),
         "{err}"
