@@ -172,10 +172,96 @@ mod tests {
         assert_eq!(Settings::parse("").unwrap().year, None);
     }
 
+    /// Every key, not one: the printed defaults parse back to the same settings.
     #[test]
     fn the_printed_defaults_parse_back() {
         let text = Settings::defaults_toml();
         let s = Settings::parse(&text).expect("defaults parse");
-        assert_eq!(s.qc.min_coverage, QcParams::default().min_coverage);
+        let again = toml::to_string_pretty(&s).unwrap();
+        assert_eq!(again, toml::to_string_pretty(&Settings::default()).unwrap());
+    }
+
+    /// The README's settings tables (section "Settings (study.toml)", one `### [table]`
+    /// heading per table, one `| `key` |` row per key) and the settings type agree: every key
+    /// the type has is documented under its table, and every documented key is accepted.
+    #[test]
+    fn the_readme_documents_every_setting() {
+        use std::collections::BTreeSet;
+        let readme = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/README.md"))
+            .expect("README.md");
+        let section = readme
+            .split("## Settings (study.toml)")
+            .nth(1)
+            .expect("settings section")
+            .split("\n## ")
+            .next()
+            .unwrap();
+        let mut documented: BTreeSet<(String, String)> = BTreeSet::new();
+        let mut optional: BTreeSet<(String, String)> = BTreeSet::new();
+        let mut table = String::new();
+        for line in section.lines() {
+            if let Some(h) = line.strip_prefix("### ") {
+                table = h
+                    .trim_matches(|c| c == '`' || c == '[' || c == ']')
+                    .to_string();
+                if table == "Top level" {
+                    table.clear();
+                }
+            } else if let Some(rest) = line.strip_prefix("| `") {
+                let key = rest.split('`').next().unwrap().to_string();
+                let default = rest.split('|').nth(1).unwrap_or("").trim();
+                if default == "none" {
+                    optional.insert((table.clone(), key.clone()));
+                }
+                documented.insert((table.clone(), key));
+            }
+        }
+        // Keys of the type: the serialised defaults (keys without a default are absent there).
+        fn walk(v: &toml::Value, table: &str, out: &mut BTreeSet<(String, String)>) {
+            for (k, v) in v.as_table().unwrap() {
+                match v {
+                    toml::Value::Table(_) => {
+                        let t = if table.is_empty() {
+                            k.clone()
+                        } else {
+                            format!("{table}.{k}")
+                        };
+                        walk(v, &t, out);
+                    }
+                    _ => {
+                        out.insert((table.to_string(), k.clone()));
+                    }
+                }
+            }
+        }
+        let mut typed = BTreeSet::new();
+        walk(
+            &toml::Value::try_from(Settings::default()).unwrap(),
+            "",
+            &mut typed,
+        );
+        let undocumented: Vec<_> = typed.difference(&documented).collect();
+        assert!(
+            undocumented.is_empty(),
+            "settings missing from the README: {undocumented:?}"
+        );
+        for (table, key) in documented.difference(&typed) {
+            assert!(
+                optional.contains(&(table.clone(), key.clone())),
+                "README documents [{table}] {key} with a default, but the settings have no such key"
+            );
+            let accepted = ["2025", "1.0", "true", "\"x\""].iter().any(|v| {
+                let text = if table.is_empty() {
+                    format!("{key} = {v}")
+                } else {
+                    format!("[{table}]\n{key} = {v}")
+                };
+                Settings::parse(&text).is_ok()
+            });
+            assert!(
+                accepted,
+                "README documents [{table}] {key}, which study.toml rejects"
+            );
+        }
     }
 }

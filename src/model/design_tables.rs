@@ -477,6 +477,11 @@ mod tests {
         assert_eq!(Facility::of_functional_class(3), Facility::Other);
     }
 
+    /// The per-class truck factors are defaults, not published values (references §5.3: they
+    /// vary by state and year). What can be checked: class 9 flexible lies in the typical
+    /// 1.0-1.5 ESAL/truck range (references §5.3, from memory), below the 2.38 of a fully
+    /// loaded 80-kip 3-S2 (references §5.3, computed from AASHTO 1993 App. D LEFs); each
+    /// class is marked common practice.
     #[test]
     fn truck_factor_defaults_are_marked_and_complete() {
         let t = LoadEquivalency::defaults();
@@ -485,11 +490,9 @@ mod tests {
         }
         assert!(t.class_factor(3, false).is_none());
         assert!(t.class_factor(14, true).is_none());
-        assert_relative_eq!(
-            t.class_factor(9, false).unwrap(),
-            1.10,
-            max_relative = 1e-12
-        );
+        let class9 = t.class_factor(9, false).unwrap();
+        assert!((1.0..=1.5).contains(&class9), "{class9}");
+        assert!(class9 < 2.3786);
         assert!(t
             .rows()
             .iter()

@@ -130,22 +130,31 @@ fn qc_catches_injected_faults_and_spares_clean_days() {
     );
 }
 
-/// Issue acceptance: 48-hour counts' 95 % intervals cover the counters' AADT 92-97 % of the
-/// time in the calibration experiment (out-of-sample scale).
+/// The published 95 % intervals of short-count segments cover the generator's true AADT
+/// (truth/segment_truth.csv) close to 95 % of the time. The truth is outside the calibration
+/// experiment: the scale is fitted on simulated counts from the permanent counters, and judged
+/// here on the study's real short counts, with their day-to-day noise, old counts and growth.
 #[test]
-fn calibrated_48_hour_intervals_cover_close_to_95_percent() {
-    let (_dir, r) = study(7);
-    let all48 = r
-        .calibration
-        .rows
-        .iter()
-        .find(|row| row.hours == 48 && row.class_group == "all")
-        .expect("48-hour row");
-    assert!(all48.trials >= 200, "{}", all48.trials);
+fn short_count_intervals_cover_the_true_aadt() {
+    let (dir, r) = study_of(5, DemoSize::Large);
+    let truth: HashMap<String, f64> = read_csv(&dir.path().join("truth/segment_truth.csv"))
+        .into_iter()
+        .map(|t| (t["segment_id"].clone(), t["true_aadt"].parse().unwrap()))
+        .collect();
+    let (mut n, mut covered) = (0usize, 0usize);
+    for row in &r.segments {
+        if row.basis != roadtally::segments::Basis::ShortCount {
+            continue;
+        }
+        let t = truth[&r.data.network.segments[row.segment].id.0];
+        n += 1;
+        covered += usize::from(row.aadt.lo95 <= t && t <= row.aadt.hi95);
+    }
+    let coverage = covered as f64 / n as f64;
+    assert!(n >= 200, "short-count segments: {n}");
     assert!(
-        (0.92..=0.97).contains(&all48.coverage),
-        "48-hour coverage {:.3}",
-        all48.coverage
+        (0.90..=0.985).contains(&coverage),
+        "{covered} of {n} short-count intervals cover the true AADT ({coverage:.3})"
     );
 }
 

@@ -258,22 +258,6 @@ fn invalid_inputs_are_errors() {
 }
 
 #[test]
-fn predict_many_matches_predict() {
-    let data = layout(30);
-    let k = kriger(data, 0.1, 10);
-    let targets: Vec<Target> = (0..50)
-        .map(|i| Target {
-            xy: [i as f64 * 0.4, 20.0 - i as f64 * 0.3],
-            drift: vec![1.0 + 0.1 * i as f64],
-        })
-        .collect();
-    let many = k.predict_many(&targets);
-    for (t, r) in targets.iter().zip(many) {
-        assert_eq!(r.unwrap(), k.predict(t.xy, &t.drift).unwrap());
-    }
-}
-
-#[test]
 fn leave_one_out_excludes_the_point_itself() {
     let data = layout(20);
     let k = kriger(data.clone(), 0.1, 30);
