@@ -125,7 +125,10 @@ impl Reference {
                     (_, _, Some(b)) => Some(b),
                     (Some(f), Some(r), None) => {
                         let mut s = f.clone();
-                        s.values.iter_mut().zip(&r.values).for_each(|(a, b)| *a += b);
+                        s.values
+                            .iter_mut()
+                            .zip(&r.values)
+                            .for_each(|(a, b)| *a += b);
                         Some(s)
                     }
                     (Some(f), None, None) if seg.oneway => Some(f.clone()),
@@ -157,10 +160,8 @@ impl Reference {
     /// The candidate counters of a segment: same broad group and area, else same broad
     /// group, else all, each with at least `min_stations`.
     fn candidates(&self, band: &str, area: Area, min_stations: usize) -> Vec<&RefStation> {
-        let tiers: [&dyn Fn(&RefStation) -> bool; 2] = [
-            &|r| r.band == band && r.area == area,
-            &|r| r.band == band,
-        ];
+        let tiers: [&dyn Fn(&RefStation) -> bool; 2] =
+            [&|r| r.band == band && r.area == area, &|r| r.band == band];
         for tier in tiers {
             let v: Vec<&RefStation> = self.stations.iter().filter(|r| tier(r)).collect();
             if v.len() >= min_stations.max(1) {
@@ -222,7 +223,11 @@ fn covered_run(day: &DayCounts, d: Direction, min_hours: usize) -> Option<Run> {
     if b - a < min_hours.max(1) {
         return None;
     }
-    let halve = if s.measure == Measure::Axles { 0.5 } else { 1.0 };
+    let halve = if s.measure == Measure::Axles {
+        0.5
+    } else {
+        1.0
+    };
     Some(Run {
         complete: a == 0 && b == s.values.len(),
         s: DaySeries {
@@ -267,15 +272,15 @@ fn choose<'a>(
             let typed = day_types(fs, date).into_iter().zip(day_types(rs, date));
             for ((a, wa), (b, _)) in typed {
                 for (pf, pr, nf, nr) in [(a, b, "fwd", "rev"), (b, a, "rev", "fwd")] {
-                let m = (fit(&f.s, pf) + fit(&r.s, pr)) * wa;
-                if best.as_ref().is_none_or(|x| m < x.0) {
-                    let ch = |profile, dir| Chosen {
-                        profile,
-                        label: c.id.as_str(),
-                        dir,
-                    };
-                    best = Some((m, ch(pf, nf), ch(pr, nr)));
-                }
+                    let m = (fit(&f.s, pf) + fit(&r.s, pr)) * wa;
+                    if best.as_ref().is_none_or(|x| m < x.0) {
+                        let ch = |profile, dir| Chosen {
+                            profile,
+                            label: c.id.as_str(),
+                            dir,
+                        };
+                        best = Some((m, ch(pf, nf), ch(pr, nr)));
+                    }
                 }
             }
         }
@@ -299,17 +304,17 @@ fn choose<'a>(
             for (set, dir) in sets {
                 let Some(set) = set.as_ref() else { continue };
                 for (pr, w) in day_types(set, date) {
-                let m = fit(&run.s, pr) * w;
-                if best.as_ref().is_none_or(|x| m < x.0) {
-                    best = Some((
-                        m,
-                        Chosen {
-                            profile: pr,
-                            label: c.id.as_str(),
-                            dir,
-                        },
-                    ));
-                }
+                    let m = fit(&run.s, pr) * w;
+                    if best.as_ref().is_none_or(|x| m < x.0) {
+                        best = Some((
+                            m,
+                            Chosen {
+                                profile: pr,
+                                label: c.id.as_str(),
+                                dir,
+                            },
+                        ));
+                    }
                 }
             }
         }
@@ -551,8 +556,7 @@ fn swapped(
             swap += (r.values[k] - share * t).powi(2) / var;
             n += 1;
         }
-        if n > 0 && same > swap * p.swap_min_misfit_ratio && same - swap > p.swap_min_misfit_gain
-        {
+        if n > 0 && same > swap * p.swap_min_misfit_ratio && same - swap > p.swap_min_misfit_gain {
             // The count's own orientation is that of the majority of its hours: the day is
             // rejected when the other days hold more hours, flagged on a tie (two days of
             // equal length: either may be the swapped one), left alone when it is the
@@ -612,7 +616,8 @@ pub(crate) fn check(
     // Swaps first: on a swapped day every single-direction rule would fire on its symptoms.
     if !st.oneway {
         for (date, action, detail) in swapped(&runs, p) {
-            if rejected.contains(&(Direction::Fwd, date)) || rejected.contains(&(Direction::Rev, date))
+            if rejected.contains(&(Direction::Fwd, date))
+                || rejected.contains(&(Direction::Rev, date))
             {
                 continue;
             }
@@ -632,7 +637,12 @@ pub(crate) fn check(
         }
     }
     let cands = reference.candidates(st.band, st.area, p.short_reference_min_stations);
-    let dates: Vec<NaiveDate> = runs.keys().map(|k| k.1).collect::<HashSet<_>>().into_iter().collect();
+    let dates: Vec<NaiveDate> = runs
+        .keys()
+        .map(|k| k.1)
+        .collect::<HashSet<_>>()
+        .into_iter()
+        .collect();
     let mut chosen: BTreeMap<(Direction, NaiveDate), Chosen> = BTreeMap::new();
     for &date in &dates {
         for (d, c) in choose(&cands, &runs, date, p) {
@@ -659,7 +669,10 @@ pub(crate) fn check(
             .iter()
             .filter(|((dd, dt), _)| {
                 (*dd == *d && *dt != *date)
-                    || (*dt == *date && *dd != *d && *dd != Direction::Both && *d != Direction::Both)
+                    || (*dt == *date
+                        && *dd != *d
+                        && *dd != Direction::Both
+                        && *d != Direction::Both)
             })
             .map(|(_, l)| *l)
             .collect();
@@ -765,7 +778,14 @@ pub(crate) fn check(
                 rejected.insert((*d, *date));
             }
             let t = t.replace("station profile", &source);
-            push(&mut out, *d, *date, rule, action, format!("{t} (short count)"));
+            push(
+                &mut out,
+                *d,
+                *date,
+                rule,
+                action,
+                format!("{t} (short count)"),
+            );
         }
     }
     // fwd against rev: the hourly ratio of the two directions against the reference pair's.
@@ -798,7 +818,10 @@ pub(crate) fn check(
                         date,
                         QcRule::LevelShift,
                         QcAction::Flagged,
-                        format!("{t} (reference {} {}/{}; short count)", cf.label, cf.dir, cr.dir),
+                        format!(
+                            "{t} (reference {} {}/{}; short count)",
+                            cf.label, cf.dir, cr.dir
+                        ),
                     );
                 }
             }
@@ -849,12 +872,23 @@ pub(crate) fn check(
     if let Some(&(year, aadt)) = history {
         let mut totals: Vec<(NaiveDate, Vec<Direction>, f64)> = Vec::new();
         for &date in &dates {
-            let ok = |d| runs.get(&(d, date)).filter(|r| r.complete && !rejected.contains(&(d, date)));
+            let ok = |d| {
+                runs.get(&(d, date))
+                    .filter(|r| r.complete && !rejected.contains(&(d, date)))
+            };
             if let Some(b) = ok(Direction::Both) {
-                let k = if b.s.measure == Measure::Axles { 2.0 } else { 1.0 };
+                let k = if b.s.measure == Measure::Axles {
+                    2.0
+                } else {
+                    1.0
+                };
                 totals.push((date, vec![Direction::Both], b.s.total() / k));
             } else if let (Some(f), Some(r)) = (ok(Direction::Fwd), ok(Direction::Rev)) {
-                totals.push((date, vec![Direction::Fwd, Direction::Rev], f.s.total() + r.s.total()));
+                totals.push((
+                    date,
+                    vec![Direction::Fwd, Direction::Rev],
+                    f.s.total() + r.s.total(),
+                ));
             } else if let (Some(f), true) = (ok(Direction::Fwd), st.oneway) {
                 totals.push((date, vec![Direction::Fwd], f.s.total()));
             }

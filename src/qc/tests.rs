@@ -1133,7 +1133,10 @@ fn short_start() -> NaiveDate {
 }
 
 fn short_findings(out: &QcOutput, station: usize) -> Vec<&QcFinding> {
-    out.findings.iter().filter(|f| f.station == station).collect()
+    out.findings
+        .iter()
+        .filter(|f| f.station == station)
+        .collect()
 }
 
 #[test]
@@ -1149,7 +1152,11 @@ fn short_count_with_a_whole_day_of_zeros_is_rejected_and_a_clean_one_is_not() {
     let clean = short_count(&mut s, 2, short_start(), 2, |_, _| {});
     let out = run_short(vec![dead, clean], &[]);
     let day2 = short_start() + chrono::Duration::days(1);
-    assert!(out.is_rejected(1, day2, Direction::Fwd), "{:?}", short_findings(&out, 1));
+    assert!(
+        out.is_rejected(1, day2, Direction::Fwd),
+        "{:?}",
+        short_findings(&out, 1)
+    );
     assert!(short_findings(&out, 1)
         .iter()
         .any(|f| f.rule == QcRule::ZeroRun && f.date == day2));
@@ -1204,8 +1211,9 @@ fn short_count_level_step_is_caught() {
     let day2 = short_start() + chrono::Duration::days(1);
     let f = short_findings(&out, 1);
     assert!(
-        f.iter()
-            .any(|x| x.rule == QcRule::LevelShift && x.date == day2 && x.direction == Direction::Fwd),
+        f.iter().any(|x| x.rule == QcRule::LevelShift
+            && x.date == day2
+            && x.direction == Direction::Fwd),
         "{f:?}"
     );
     assert!(!out.is_rejected(1, short_start(), Direction::Fwd));
@@ -1250,7 +1258,11 @@ fn short_count_day_far_from_its_other_days_is_flagged_not_rejected() {
         && f.date == day3
         && f.rule == QcRule::CountDays
         && f.action == QcAction::Flagged));
-    assert!(!out.rejected.iter().any(|k| k.0 == 1), "{:?}", short_findings(&out, 1));
+    assert!(
+        !out.rejected.iter().any(|k| k.0 == 1),
+        "{:?}",
+        short_findings(&out, 1)
+    );
 }
 
 #[test]
@@ -1266,10 +1278,9 @@ fn short_count_far_from_the_segment_history_is_flagged() {
     };
     // About 6000 veh/day two-way against 18 000 published: flagged; against 6000: silent.
     let far = run_short(vec![c.clone()], &history(18_000.0));
-    assert!(far
-        .findings
-        .iter()
-        .any(|f| f.station == 1 && f.rule == QcRule::HistoryLevel && f.action == QcAction::Flagged));
+    assert!(far.findings.iter().any(|f| f.station == 1
+        && f.rule == QcRule::HistoryLevel
+        && f.action == QcAction::Flagged));
     assert!(!far.rejected.iter().any(|k| k.0 == 1));
     let near = run_short(vec![c], &history(6000.0));
     assert!(!near.findings.iter().any(|f| f.rule == QcRule::HistoryLevel));
@@ -1283,7 +1294,13 @@ fn plausible_short_counts_are_rarely_rejected() {
         let mut s = Synth::new(97 + k as u64, daily);
         for i in 0..30 {
             let start = short_start() + chrono::Duration::days(7 * (i % 6) as i64);
-            shorts.push(short_count(&mut s, shorts.len() + 1, start, 1 + i % 3, |_, _| {}));
+            shorts.push(short_count(
+                &mut s,
+                shorts.len() + 1,
+                start,
+                1 + i % 3,
+                |_, _| {},
+            ));
         }
     }
     let days: usize = shorts.iter().map(|c| 2 * c.len()).sum();
