@@ -302,6 +302,7 @@ pub fn run_bench(dir: &Path, regenerate: bool) -> anyhow::Result<BenchReport> {
             counts: &data.counts,
             stations: &data.stations,
             network: &data.network,
+            history: &data.history,
         };
         let qc_out = qc::run(&input, &config.settings.qc);
         check.keep(t.stop());

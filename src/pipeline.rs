@@ -184,6 +184,7 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
         counts: &data.counts,
         stations: &data.stations,
         network: &data.network,
+        history: &data.history,
     };
     let qc = crate::qc::run(&qc_input, &settings.qc);
     let continuous_input = crate::continuous::stage::ContinuousInput {

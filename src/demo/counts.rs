@@ -570,16 +570,15 @@ pub(crate) fn write_short(
         let start =
             clock::local_midnight_utc(st.start_date) + Duration::hours(st.start_hour as i64);
         let intervals = clock::intervals_from(start, st.hours, 60);
-        let recs = draw_short(
-            rng,
-            &noise,
-            seg,
-            pattern,
-            st,
-            &intervals,
-            params.year,
-            &mut fault_rows,
-        );
+        let mut recs = draw_short(rng, &noise, seg, pattern, st, &intervals, params.year);
+        let per_direction = matches!(st.kind, ShortKind::PerDirection | ShortKind::Classified);
+        let target = faults::ShortTarget {
+            station: &st.id,
+            names: direction_names(st.kind),
+            per_direction,
+            can_swap: pattern.commuter && !seg.oneway,
+        };
+        faults::inject_short(rng, &target, &intervals, &mut recs, &mut fault_rows);
         let bad = bad_targets.iter().find(|(s, _)| *s == i).map(|&(_, p)| p);
         let mut row_no = 0usize;
         for (dir, name) in recs.iter().zip(direction_names(st.kind)) {
@@ -689,9 +688,8 @@ fn write_bad(
     sink.row(&buf.fields)
 }
 
-/// Draws a short count's records (both directions, or the `both` total in `[0]`), with a
-/// fault on some stations.
-#[allow(clippy::too_many_arguments)]
+/// Draws a short count's records (both directions, or the `both` total in `[0]`); faults
+/// are injected afterwards by [`faults::inject_short`].
 fn draw_short(
     rng: &mut ChaCha8Rng,
     noise: &Noise,
@@ -700,15 +698,11 @@ fn draw_short(
     st: &ShortStation,
     intervals: &[Interval],
     study_year: i32,
-    fault_rows: &mut Vec<FaultRow>,
 ) -> [Vec<Rec>; 2] {
     let aadt = seg.aadt / (1.0 + pattern.growth).powi(study_year - st.year);
     let norm = pattern.norm(st.year);
     let classified = matches!(st.kind, ShortKind::Classified | ShortKind::Axles);
     let mut out: [Vec<Rec>; 2] = [Vec::new(), Vec::new()];
-    let fault_day = rng
-        .gen_bool(0.06)
-        .then(|| intervals[intervals.len() / 2].date);
     let mut dates: Vec<NaiveDate> = intervals.iter().map(|iv| iv.date).collect();
     dates.dedup();
     for date in dates {
@@ -721,17 +715,6 @@ fn draw_short(
         let mut recs = draw_day(rng, noise, seg, pattern, day_mean, &indexed, 60, classified);
         if matches!(st.kind, ShortKind::Both | ShortKind::Axles) {
             recs = [merge_directions(&recs), Vec::new()];
-        }
-        if fault_day == Some(date) {
-            let kind = [FaultKind::Stuck, FaultKind::Dead, FaultKind::Spike][rng.gen_range(0..3)];
-            let detail = faults::apply(kind, rng, &mut recs[0]);
-            fault_rows.push(FaultRow {
-                station_id: st.id.clone(),
-                direction: direction_names(st.kind)[0],
-                date,
-                kind,
-                detail,
-            });
         }
         for (all, day) in out.iter_mut().zip(recs) {
             all.extend(day);

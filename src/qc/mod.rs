@@ -80,6 +80,7 @@ pub mod network;
 mod params;
 mod profile;
 mod rules;
+mod short;
 
 #[cfg(test)]
 mod tests;
@@ -118,11 +119,17 @@ pub enum QcRule {
     SwappedDirections,
     /// Class figures inconsistent with vehicles or an implausible class mix.
     ClassMismatch,
+    /// A short count's day total far from its other days (a loose tube, a lane not
+    /// counted for a whole day; also a real event or bad weather, so flagged).
+    CountDays,
+    /// A short count's level far from the segment's published AADT (a count on the wrong
+    /// segment or a miscalibrated counter; also real change, so flagged).
+    HistoryLevel,
 }
 
 impl QcRule {
     /// Every rule, in report order.
-    pub const ALL: [QcRule; 9] = [
+    pub const ALL: [QcRule; 11] = [
         QcRule::Incomplete,
         QcRule::FlatRun,
         QcRule::ZeroRun,
@@ -132,6 +139,8 @@ impl QcRule {
         QcRule::DirectionalImbalance,
         QcRule::SwappedDirections,
         QcRule::ClassMismatch,
+        QcRule::CountDays,
+        QcRule::HistoryLevel,
     ];
 
     /// The snake_case name written to qc_log.csv.
@@ -150,6 +159,8 @@ impl QcRule {
             QcRule::DirectionalImbalance => "directional_imbalance",
             QcRule::SwappedDirections => "swapped_directions",
             QcRule::ClassMismatch => "class_mismatch",
+            QcRule::CountDays => "count_days",
+            QcRule::HistoryLevel => "history_level",
         }
     }
 }
@@ -250,6 +261,8 @@ pub struct QcInput<'a> {
     pub stations: &'a StationList,
     /// The network, for its own checks.
     pub network: &'a Network,
+    /// Published AADT of earlier years: the short-count level check.
+    pub history: &'a [crate::model::HistoryRecord],
 }
 
 /// Runs every count rule over the store and the network checks over the network. A finding
@@ -258,7 +271,7 @@ pub struct QcInput<'a> {
 /// ```
 /// use roadtally::qc::{run, QcInput, QcParams};
 /// let (counts, stations, network) = (Default::default(), Default::default(), Default::default());
-/// let input = QcInput { counts: &counts, stations: &stations, network: &network };
+/// let input = QcInput { counts: &counts, stations: &stations, network: &network, history: &[] };
 /// let out = run(&input, &QcParams::default());
 /// assert!(out.findings.is_empty() && out.summary.direction_days == 0);
 /// ```
@@ -278,16 +291,63 @@ pub fn run(input: &QcInput, params: &QcParams) -> QcOutput {
         .filter_map(|d| Some((d.keys().next()?.year(), d.keys().next_back()?.year())))
         .reduce(|a, b| (a.0.min(b.0), a.1.max(b.1)));
     let calendar = holiday_calendar(years, params);
+    let is_short = |si: usize| {
+        stations
+            .stations
+            .get(si)
+            .is_some_and(|s| s.kind == crate::model::StationKind::Short)
+    };
     let per_station: Vec<(Vec<QcFinding>, usize)> = store
         .days
         .par_iter()
         .enumerate()
-        .map(|(si, days)| {
-            let short = stations
-                .stations
-                .get(si)
-                .is_some_and(|s| s.kind == crate::model::StationKind::Short);
-            check_station_in(si, days, oneway(si), short, &calendar, params)
+        .map(|(si, days)| check_station_in(si, days, oneway(si), is_short(si), &calendar, params))
+        .collect();
+    // Short counts against the permanent counters' accepted days (see `short`).
+    let rejected_of = |f: &[QcFinding]| -> HashSet<(Direction, NaiveDate)> {
+        f.iter()
+            .filter(|x| x.action == QcAction::Rejected)
+            .map(|x| (x.direction, x.date))
+            .collect()
+    };
+    let permanent_rejected: HashSet<(usize, NaiveDate, Direction)> = per_station
+        .iter()
+        .enumerate()
+        .filter(|(si, _)| !is_short(*si))
+        .flat_map(|(si, (f, _))| rejected_of(f).into_iter().map(move |(d, t)| (si, t, d)))
+        .collect();
+    let reference = short::Reference::build(
+        store,
+        stations,
+        network,
+        input.history,
+        &permanent_rejected,
+        params,
+    );
+    let reference_params = QcParams {
+        shape_noise_share: params.short_shape_noise_share,
+        level_shift_min_z: params.short_level_shift_min_z,
+        level_shift_min_log_ratio: params.short_level_shift_min_log_ratio,
+        ..params.clone()
+    };
+    let short_findings: Vec<Vec<QcFinding>> = store
+        .days
+        .par_iter()
+        .enumerate()
+        .filter(|(si, _)| is_short(*si))
+        .filter_map(|(si, days)| {
+            let st = &stations.stations[si];
+            let seg = network.segments.get(st.segment)?;
+            let input = short::ShortStation {
+                station: si,
+                days,
+                segment: st.segment,
+                band: seg.functional_class.broad_group(),
+                area: seg.area,
+                oneway: seg.oneway,
+                rejected: rejected_of(&per_station[si].0),
+            };
+            Some(short::check(&input, &reference, params, &reference_params))
         })
         .collect();
     let mut findings = Vec::new();
@@ -296,6 +356,7 @@ pub fn run(input: &QcInput, params: &QcParams) -> QcOutput {
         findings.extend(f);
         direction_days += n;
     }
+    findings.extend(short_findings.into_iter().flatten());
     findings.sort_by(|a, b| {
         (a.station, a.date, a.direction, a.rule).cmp(&(b.station, b.date, b.direction, b.rule))
     });

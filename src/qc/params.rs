@@ -125,6 +125,40 @@ pub struct QcParams {
     /// share, absolute share. Default 0.10.
     pub class_max_heavy_share_change: f64,
 
+    /// Short counts: fewest consecutive fully covered hours of a day for the short-count
+    /// rules against the permanent counters' reference (partial first and last days with at
+    /// least this many hours are tested too). Hours. Default 8 (common practice: a third of
+    /// a day shows a peak and its shoulders).
+    pub short_min_hours: usize,
+    /// Short counts: fewest permanent counters of the segment's broad functional group and
+    /// area before the reference widens to the broad group, then to all counters. Default 2.
+    pub short_reference_min_stations: usize,
+    /// Short counts: hour-to-hour misfit of a road's shape against another road's (the
+    /// reference counter's), share of the expected volume, in place of `shape_noise_share`.
+    /// Default 0.10 (common practice; hourly shares of roads of one pattern differ by about
+    /// a tenth at the peaks).
+    pub short_shape_noise_share: f64,
+    /// Short counts: smallest standardised level step against the reference, in place of
+    /// `level_shift_min_z`. Default 3 (a count has 1-3 days, not a year, to go wrong on).
+    pub short_level_shift_min_z: f64,
+    /// Short counts: smallest level step against the reference, |ln(after / before)|, in
+    /// place of `level_shift_min_log_ratio`. Default 0.35 (a step of about 40 %: another
+    /// road's profile is a looser reference than a counter's own).
+    pub short_level_shift_min_log_ratio: f64,
+    /// Short counts: smallest standardised level step of a day against the count's own other
+    /// days of its kind for a flag when the reference shows none. Default 2.5 (a flag only:
+    /// with two days either may be the odd one).
+    pub short_own_days_min_z: f64,
+    /// Short counts: a complete day whose total differs from the median of the count's other
+    /// complete days of its kind (working or weekend) by more than this share is flagged
+    /// (`count_days`). Default 0.30 (common practice; consecutive working days of one road
+    /// differ by well under a fifth).
+    pub short_day_max_change: f64,
+    /// Short counts: the count's mean two-way day beyond this ratio of the segment's latest
+    /// published AADT, either way, flags its days (`history_level`). Default 2.0 (loose:
+    /// season, weekday and growth stay in; recreational roads reach 1.8 x AADT in summer).
+    pub short_history_max_ratio: f64,
+
     /// Segments shorter than this are reported as zero-length-like, km. Default 0.005 (5 m).
     pub min_segment_km: f64,
     /// Segments longer than this are reported as implausibly long, km. Default 100.
@@ -172,6 +206,14 @@ impl Default for QcParams {
             swap_min_misfit_gain: 60.0,
             class_min_light_share: 0.20,
             class_max_heavy_share_change: 0.10,
+            short_min_hours: 8,
+            short_reference_min_stations: 2,
+            short_shape_noise_share: 0.10,
+            short_level_shift_min_z: 3.0,
+            short_level_shift_min_log_ratio: 0.35,
+            short_own_days_min_z: 2.5,
+            short_day_max_change: 0.30,
+            short_history_max_ratio: 2.0,
             min_segment_km: 0.005,
             max_segment_km: 100.0,
             chord_tolerance_share: 0.02,

@@ -779,6 +779,7 @@ fn run_rejects_faulty_direction_days_and_counts_outcomes() {
         counts: &store,
         stations: &stations,
         network: &net,
+        history: &[],
     };
     let out = run(&input, &QcParams::default());
     let fault = date0() + chrono::Duration::days(FAULT_DAY as i64);
@@ -1051,5 +1052,266 @@ fn a_listed_holiday_is_flagged_not_rejected() {
         rejected_on(&f, holiday, QcRule::LevelShift),
         "{:?}",
         findings_on(&f, holiday)
+    );
+}
+
+// ---- Short counts against the permanent counters' reference (see `short`) ----
+
+/// A short count of `n` days from `start` (fwd and rev, 24 hours each) drawn from `synth`,
+/// with `edit` applied to the values of day `i`.
+fn short_count(
+    synth: &mut Synth,
+    station: usize,
+    start: NaiveDate,
+    n: usize,
+    mut edit: impl FnMut(usize, &mut [Vec<u32>; 2]),
+) -> BTreeMap<NaiveDate, DayCounts> {
+    let mut days = BTreeMap::new();
+    for i in 0..n {
+        let date = start + chrono::Duration::days(i as i64);
+        let mut v = synth.day_values(date);
+        edit(i, &mut v);
+        let mut day = day_counts(
+            date,
+            &[(Direction::Fwd, full(&v[0])), (Direction::Rev, full(&v[1]))],
+        );
+        day.station = station;
+        days.insert(date, day);
+    }
+    days
+}
+
+/// Runs the stage over one permanent counter (70 clean days, the reference) and `shorts`,
+/// all on the segment of [`tiny_study`].
+fn run_short(
+    shorts: Vec<BTreeMap<NaiveDate, DayCounts>>,
+    history: &[crate::model::HistoryRecord],
+) -> QcOutput {
+    use crate::model::{SegmentId, Station, StationId, StationKind};
+    let (_, _, net) = tiny_study();
+    let mut list = vec![Station {
+        id: StationId::from("perm"),
+        segment_id: SegmentId::from("ab"),
+        segment: 0,
+        kind: StationKind::Continuous,
+    }];
+    for i in 0..shorts.len() {
+        list.push(Station {
+            id: StationId::from(format!("s{i}").as_str()),
+            segment_id: SegmentId::from("ab"),
+            segment: 0,
+            kind: StationKind::Short,
+        });
+    }
+    let stations = StationList {
+        index: list
+            .iter()
+            .enumerate()
+            .map(|(i, s)| (s.id.clone(), i))
+            .collect(),
+        stations: list,
+        rejected: Default::default(),
+    };
+    let mut days = vec![station(70, 7, 8000.0, |_, _, _| None)];
+    days.extend(shorts);
+    let store = CountStore {
+        days,
+        ..Default::default()
+    };
+    let input = QcInput {
+        counts: &store,
+        stations: &stations,
+        network: &net,
+        history,
+    };
+    run(&input, &QcParams::default())
+}
+
+/// A Tuesday three weeks after `date0`.
+fn short_start() -> NaiveDate {
+    date0() + chrono::Duration::days(22)
+}
+
+fn short_findings(out: &QcOutput, station: usize) -> Vec<&QcFinding> {
+    out.findings
+        .iter()
+        .filter(|f| f.station == station)
+        .collect()
+}
+
+#[test]
+fn short_count_with_a_whole_day_of_zeros_is_rejected_and_a_clean_one_is_not() {
+    // A 48-hour count whose second fwd day is all zeros (a cut tube): no profile of its
+    // own, the zeros are implausible against the reference at the count's level.
+    let mut s = Synth::new(90, 3000.0);
+    let dead = short_count(&mut s, 1, short_start(), 2, |i, v| {
+        if i == 1 {
+            v[0].iter_mut().for_each(|x| *x = 0);
+        }
+    });
+    let clean = short_count(&mut s, 2, short_start(), 2, |_, _| {});
+    let out = run_short(vec![dead, clean], &[]);
+    let day2 = short_start() + chrono::Duration::days(1);
+    assert!(
+        out.is_rejected(1, day2, Direction::Fwd),
+        "{:?}",
+        short_findings(&out, 1)
+    );
+    assert!(short_findings(&out, 1)
+        .iter()
+        .any(|f| f.rule == QcRule::ZeroRun && f.date == day2));
+    assert!(!out.is_rejected(1, short_start(), Direction::Fwd));
+    assert!(
+        !out.rejected.iter().any(|k| k.0 == 2),
+        "clean count rejected: {:?}",
+        short_findings(&out, 2)
+    );
+}
+
+#[test]
+fn short_count_with_a_four_hour_spike_is_rejected() {
+    // One day (24 h), fwd hours 10-13 x 6: each hour is a neighbour of another spike hour,
+    // so only the reference shows them.
+    let mut s = Synth::new(91, 3000.0);
+    let spike = short_count(&mut s, 1, short_start(), 1, |_, v| {
+        v[0][10..14].iter_mut().for_each(|x| *x *= 6);
+    });
+    let out = run_short(vec![spike], &[]);
+    assert!(out.is_rejected(1, short_start(), Direction::Fwd));
+    assert!(short_findings(&out, 1)
+        .iter()
+        .any(|f| f.rule == QcRule::Spike && f.action == QcAction::Rejected));
+    assert!(!out.is_rejected(1, short_start(), Direction::Rev));
+}
+
+#[test]
+fn short_count_with_a_nine_hour_flat_run_is_rejected() {
+    let mut s = Synth::new(92, 600.0);
+    let stuck = short_count(&mut s, 1, short_start(), 1, |_, v| {
+        let x = v[0][8];
+        v[0][8..17].iter_mut().for_each(|y| *y = x);
+    });
+    let out = run_short(vec![stuck], &[]);
+    assert!(out.is_rejected(1, short_start(), Direction::Fwd));
+    assert!(short_findings(&out, 1)
+        .iter()
+        .any(|f| f.rule == QcRule::FlatRun));
+}
+
+#[test]
+fn short_count_level_step_is_caught() {
+    // Two days; the second fwd day halves from 11:00 (a tube moved off a lane).
+    let mut s = Synth::new(93, 3000.0);
+    let step = short_count(&mut s, 1, short_start(), 2, |i, v| {
+        if i == 1 {
+            v[0][11..].iter_mut().for_each(|x| *x /= 2);
+        }
+    });
+    let out = run_short(vec![step], &[]);
+    let day2 = short_start() + chrono::Duration::days(1);
+    let f = short_findings(&out, 1);
+    assert!(
+        f.iter().any(|x| x.rule == QcRule::LevelShift
+            && x.date == day2
+            && x.direction == Direction::Fwd),
+        "{f:?}"
+    );
+    assert!(!out.is_rejected(1, short_start(), Direction::Fwd));
+}
+
+#[test]
+fn short_count_with_a_swapped_day_rejects_that_day_only() {
+    // Three working days; fwd and rev exchanged on the middle one.
+    let mut s = Synth::new(94, 3000.0);
+    let swap = short_count(&mut s, 1, short_start(), 3, |i, v| {
+        if i == 1 {
+            v.swap(0, 1);
+        }
+    });
+    let out = run_short(vec![swap], &[]);
+    let day2 = short_start() + chrono::Duration::days(1);
+    for d in [Direction::Fwd, Direction::Rev] {
+        assert!(out.findings.iter().any(|f| f.station == 1
+            && f.date == day2
+            && f.direction == d
+            && f.rule == QcRule::SwappedDirections
+            && f.action == QcAction::Rejected));
+        assert!(!out.is_rejected(1, short_start(), d));
+    }
+}
+
+#[test]
+fn short_count_day_far_from_its_other_days_is_flagged_not_rejected() {
+    // The third day at 60 % in both directions with a normal shape (a storm, an event
+    // elsewhere): unusual but plausible.
+    let mut s = Synth::new(95, 3000.0);
+    let low = short_count(&mut s, 1, short_start(), 3, |i, v| {
+        if i == 2 {
+            for d in v.iter_mut() {
+                d.iter_mut().for_each(|x| *x = (*x as f64 * 0.6) as u32);
+            }
+        }
+    });
+    let out = run_short(vec![low], &[]);
+    let day3 = short_start() + chrono::Duration::days(2);
+    assert!(out.findings.iter().any(|f| f.station == 1
+        && f.date == day3
+        && f.rule == QcRule::CountDays
+        && f.action == QcAction::Flagged));
+    assert!(
+        !out.rejected.iter().any(|k| k.0 == 1),
+        "{:?}",
+        short_findings(&out, 1)
+    );
+}
+
+#[test]
+fn short_count_far_from_the_segment_history_is_flagged() {
+    let mut s = Synth::new(96, 3000.0);
+    let c = short_count(&mut s, 1, short_start(), 2, |_, _| {});
+    let history = |aadt| {
+        vec![crate::model::HistoryRecord {
+            segment: 0,
+            year: 2023,
+            aadt,
+        }]
+    };
+    // About 6000 veh/day two-way against 18 000 published: flagged; against 6000: silent.
+    let far = run_short(vec![c.clone()], &history(18_000.0));
+    assert!(far.findings.iter().any(|f| f.station == 1
+        && f.rule == QcRule::HistoryLevel
+        && f.action == QcAction::Flagged));
+    assert!(!far.rejected.iter().any(|k| k.0 == 1));
+    let near = run_short(vec![c], &history(6000.0));
+    assert!(!near.findings.iter().any(|f| f.rule == QcRule::HistoryLevel));
+}
+
+#[test]
+fn plausible_short_counts_are_rarely_rejected() {
+    // 24-, 48- and 72-hour clean counts at four volumes against the reference counter.
+    let mut shorts = Vec::new();
+    for (k, daily) in [300.0, 1000.0, 3000.0, 9000.0].into_iter().enumerate() {
+        let mut s = Synth::new(97 + k as u64, daily);
+        for i in 0..30 {
+            let start = short_start() + chrono::Duration::days(7 * (i % 6) as i64);
+            shorts.push(short_count(
+                &mut s,
+                shorts.len() + 1,
+                start,
+                1 + i % 3,
+                |_, _| {},
+            ));
+        }
+    }
+    let days: usize = shorts.iter().map(|c| 2 * c.len()).sum();
+    let out = run_short(shorts, &[]);
+    let rejected = out.rejected.iter().filter(|k| k.0 > 0).count();
+    assert!(
+        (rejected as f64) <= 0.01 * days as f64,
+        "{rejected} of {days} clean short-count direction-days rejected: {:?}",
+        out.findings
+            .iter()
+            .filter(|f| f.station > 0 && f.action == QcAction::Rejected)
+            .collect::<Vec<_>>()
     );
 }
