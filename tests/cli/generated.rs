@@ -8,6 +8,8 @@ use std::path::Path;
 use chrono::{Datelike, NaiveDate};
 use roadtally::config::Config;
 use roadtally::demo::{generate, DemoParams, DemoSize};
+use roadtally::model::views::{complete_total, Measured};
+use roadtally::model::StationKind;
 use roadtally::pipeline;
 
 fn read_csv(path: &Path) -> Vec<HashMap<String, String>> {
@@ -45,25 +47,40 @@ fn median(mut v: Vec<f64>) -> f64 {
     }
 }
 
-/// Issue acceptance: QC catches at least 95 % of the injected faulty station-days (rejected
-/// or flagged) and rejects under 1 % of the clean ones, over two generated years.
-#[test]
-fn qc_catches_injected_faults_and_spares_clean_days() {
-    let (mut faulty, mut caught, mut clean, mut clean_rejected) = (0, 0, 0, 0);
-    for seed in [11, 12] {
-        let (dir, r) = study(seed);
-        let faults: HashSet<(String, String, String)> =
+/// Injected faults found and clean complete direction-days rejected by QC on one generated
+/// study, for the stations `keep` selects; faults by kind (truth/faults.csv `fault`).
+#[derive(Default)]
+struct QcTally {
+    /// kind -> (faulty direction-days, caught: rejected or flagged)
+    by_kind: std::collections::BTreeMap<String, (usize, usize)>,
+    clean: usize,
+    clean_rejected: usize,
+}
+
+impl QcTally {
+    fn add(&mut self, seed: u64, size: DemoSize, keep: impl Fn(StationKind) -> bool) {
+        let (dir, r) = study_of(seed, size);
+        let id = |s: usize| r.data.stations.stations[s].id.0.clone();
+        let kind_of: HashMap<String, StationKind> = r
+            .data
+            .stations
+            .stations
+            .iter()
+            .map(|s| (s.id.0.clone(), s.kind))
+            .collect();
+        let faults: HashMap<(String, String, String), String> =
             read_csv(&dir.path().join("truth/faults.csv"))
                 .into_iter()
+                .filter(|f| keep(kind_of[&f["station_id"]]))
                 .map(|f| {
-                    (
+                    let key = (
                         f["station_id"].clone(),
                         f["direction"].clone(),
                         f["date"].clone(),
-                    )
+                    );
+                    (key, f["fault"].clone())
                 })
                 .collect();
-        let id = |s: usize| r.data.stations.stations[s].id.0.clone();
         let found: HashSet<(String, String, String)> =
             r.qc.findings
                 .iter()
@@ -79,9 +96,15 @@ fn qc_catches_injected_faults_and_spares_clean_days() {
                     )
                 })
                 .collect();
-        faulty += faults.len();
-        caught += faults.iter().filter(|k| found.contains(*k)).count();
+        for (key, kind) in &faults {
+            let e = self.by_kind.entry(kind.clone()).or_default();
+            e.0 += 1;
+            e.1 += usize::from(found.contains(key));
+        }
         for day in r.data.counts.iter() {
+            if !keep(r.data.stations.stations[day.station].kind) {
+                continue;
+            }
             for d in roadtally::model::Direction::ALL {
                 if day.dir(d).is_none() {
                     continue;
@@ -91,42 +114,84 @@ fn qc_catches_injected_faults_and_spares_clean_days() {
                     d.as_str().to_string(),
                     day.date.to_string(),
                 );
-                if faults.contains(&key) {
+                if faults.contains_key(&key) {
                     continue;
                 }
                 // Partial first and last days of short counts are not clean full days.
-                let full = roadtally::model::views::complete_total(
-                    day,
-                    true,
-                    roadtally::model::views::Measured::Vehicles,
-                    &|x| x != d,
-                )
-                .is_some()
-                    || roadtally::model::views::complete_total(
-                        day,
-                        true,
-                        roadtally::model::views::Measured::Axles,
-                        &|x| x != d,
-                    )
-                    .is_some();
+                let full = [Measured::Vehicles, Measured::Axles]
+                    .into_iter()
+                    .any(|m| complete_total(day, true, m, &|x| x != d).is_some());
                 if !full {
                     continue;
                 }
-                clean += 1;
-                clean_rejected += usize::from(r.qc.is_rejected(day.station, day.date, d));
+                self.clean += 1;
+                self.clean_rejected += usize::from(r.qc.is_rejected(day.station, day.date, d));
             }
         }
     }
-    let catch = caught as f64 / faulty as f64;
-    let false_reject = clean_rejected as f64 / clean as f64;
-    assert!(faulty > 100, "enough faults injected: {faulty}");
+
+    fn faulty(&self) -> usize {
+        self.by_kind.values().map(|v| v.0).sum()
+    }
+
+    fn catch(&self) -> f64 {
+        self.by_kind.values().map(|v| v.1).sum::<usize>() as f64 / self.faulty() as f64
+    }
+
+    fn false_reject(&self) -> f64 {
+        self.clean_rejected as f64 / self.clean as f64
+    }
+
+    /// Per kind "caught/faulty", for failure messages.
+    fn kinds(&self) -> String {
+        self.by_kind
+            .iter()
+            .map(|(k, (n, c))| format!("{k} {c}/{n}"))
+            .collect::<Vec<_>>()
+            .join(", ")
+    }
+}
+
+/// Issue acceptance: QC catches at least 95 % of the injected faulty station-days (rejected
+/// or flagged) and rejects under 1 % of the clean ones, over two generated years.
+#[test]
+fn qc_catches_injected_faults_and_spares_clean_days() {
+    let mut t = QcTally::default();
+    for seed in [11, 12] {
+        t.add(seed, DemoSize::Small, |_| true);
+    }
+    assert!(t.faulty() > 100, "enough faults injected: {}", t.faulty());
+    assert!(t.catch() >= 0.95, "caught {:.3}: {}", t.catch(), t.kinds());
     assert!(
-        catch >= 0.95,
-        "caught {caught} of {faulty} faulty station-days ({catch:.3})"
+        t.false_reject() < 0.01,
+        "rejected {} of {} clean station-days",
+        t.clean_rejected,
+        t.clean
     );
+}
+
+/// Short counts alone (faults: whole days of zeros, x4-x8 spikes over 1-4 hours, 6-10 hour
+/// flat runs, level steps, swapped directions): under 1 % of clean complete days rejected.
+/// The catch rate is held at 85 %: measured 89-95 % on seeds 21-23, below the 95 % that
+/// permanent counters reach, because level steps on roads of about 200 vehicles a day per
+/// direction are within counting noise (README, short-count quality control).
+#[test]
+fn short_count_qc_catches_faults_and_spares_clean_days() {
+    let mut t = QcTally::default();
+    for seed in [21, 22] {
+        t.add(seed, DemoSize::Large, |k| k == StationKind::Short);
+    }
+    assert!(t.faulty() > 50, "enough faults injected: {}", t.faulty());
+    assert!(t.catch() >= 0.85, "caught {:.3}: {}", t.catch(), t.kinds());
+    for kind in ["dead", "spike", "stuck"] {
+        let (n, c) = t.by_kind.get(kind).copied().unwrap_or_default();
+        assert!(n > 0 && c as f64 >= 0.9 * n as f64, "{kind}: {}", t.kinds());
+    }
     assert!(
-        false_reject < 0.01,
-        "rejected {clean_rejected} of {clean} clean station-days"
+        t.false_reject() < 0.01,
+        "rejected {} of {} clean short-count days",
+        t.clean_rejected,
+        t.clean
     );
 }
 
