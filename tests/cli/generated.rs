@@ -25,10 +25,6 @@ fn read_csv(path: &Path) -> Vec<HashMap<String, String>> {
         .collect()
 }
 
-fn study(seed: u64) -> (tempfile::TempDir, pipeline::Results) {
-    study_of(seed, DemoSize::Small)
-}
-
 fn study_of(seed: u64, size: DemoSize) -> (tempfile::TempDir, pipeline::Results) {
     let dir = tempfile::tempdir().unwrap();
     generate(&DemoParams::new(seed, size), dir.path()).unwrap();
