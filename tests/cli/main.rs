@@ -3,6 +3,7 @@
 //! Each test builds its study in its own temporary folder (see [`Study`]).
 
 mod generated;
+mod integrity;
 mod publish;
 mod reading;
 
