@@ -23,6 +23,12 @@ pub struct Settings {
     /// Largest share (0..1) of a file's rows that may be rejected before the run raises a
     /// data-loss alarm (exit code 1). Default 0.01.
     pub max_rejected_share: f64,
+    /// IANA time-zone name (e.g. `America/New_York`) for count timestamps written without a
+    /// UTC offset, as many logger exports are. A timestamp with an offset keeps its own. A
+    /// clock time the zone skips (spring forward) is rejected; one it repeats (fall back) is
+    /// read as the earlier hour the first time and the later hour the second time. Default:
+    /// none, so a timestamp without offset is rejected.
+    pub time_zone: Option<String>,
     /// Count quality control.
     pub qc: QcParams,
     /// Permanent-counter statistics.
@@ -44,6 +50,7 @@ impl Default for Settings {
         Settings {
             year: None,
             max_rejected_share: 0.01,
+            time_zone: None,
             qc: QcParams::default(),
             continuous: ContinuousParams::default(),
             factors: FactorParams::default(),
@@ -60,7 +67,8 @@ impl Settings {
     pub fn parse(text: &str) -> Result<Settings, InputError> {
         let s: Settings = toml::from_str(text).map_err(|e| InputError::BadConfig {
             path: PathBuf::from(SETTINGS_FILE),
-            reason: e.to_string().trim_end().replace('\n', " "),
+            // The TOML message keeps its lines: line, column and a caret under the fault.
+            reason: e.to_string().trim_end().to_string(),
         })?;
         s.validate()?;
         Ok(s)
@@ -97,11 +105,25 @@ impl Settings {
                 self.spatial.neighbours
             )));
         }
+        if let Some(z) = &self.time_zone {
+            z.parse::<chrono_tz::Tz>().map_err(|_| {
+                bad(format!(
+                    "time_zone = {z:?} is not an IANA time-zone name (such as \"America/New_York\" or \"Europe/Berlin\")"
+                ))
+            })?;
+        }
         for h in &self.qc.holidays {
             h.parse::<crate::qc::calendar::Holiday>()
                 .map_err(|e| bad(format!("[qc] holidays: {e}")))?;
         }
         Ok(())
+    }
+
+    /// How the reader treats what the files leave open (after [`Settings::validate`]).
+    pub fn read_options(&self) -> input::ReadOptions {
+        input::ReadOptions {
+            time_zone: self.time_zone.as_deref().and_then(|z| z.parse().ok()),
+        }
     }
 
     /// Reads the study's study.toml, or the defaults when it has none.
@@ -173,6 +195,20 @@ mod tests {
     }
 
     /// Every key, not one: the printed defaults parse back to the same settings.
+    #[test]
+    fn toml_errors_keep_line_and_column_and_zones_are_checked() {
+        let e = Settings::parse("year = 2025\nmax_rejected_share = \"x\"\n")
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("line 2, column") && e.contains('\n'), "{e}");
+        let e = Settings::parse("time_zone = \"Mars/Olympus\"")
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("Mars/Olympus") && e.contains("IANA"), "{e}");
+        let s = Settings::parse("time_zone = \"America/Chicago\"").unwrap();
+        assert!(s.read_options().time_zone.is_some());
+    }
+
     #[test]
     fn the_printed_defaults_parse_back() {
         let text = Settings::defaults_toml();

@@ -1,5 +1,5 @@
 //! Thin binary: parse arguments, build the configuration, run the pipeline, map the outcome
-//! to the contract's exit code (0 all rows used, 1 some rejected, 2 could not run).
+//! to the contract's exit code (0 done, 1 done with an alarm, 2 could not run).
 
 use std::process::ExitCode;
 
@@ -64,6 +64,7 @@ fn dispatch(cli: &Cli) -> anyhow::Result<u8> {
         }
         Command::Run { study, out, year } => {
             let config = Config::new(study, Some(out), *year, cli.quiet)?;
+            roadtally::output::place::check_target(study, out)?;
             let results = pipeline::compute(&config)?;
             let report = roadtally::output::write_all(&results, &config.settings, out)?;
             let alarms = pipeline::alarms(&results, &config.settings);
@@ -104,6 +105,9 @@ fn dispatch(cli: &Cli) -> anyhow::Result<u8> {
         }
         Command::Calibrate { study, out, year } => {
             let config = Config::new(study, None, *year, cli.quiet)?;
+            if let Some(out) = out {
+                roadtally::output::place::check_target(study, out)?;
+            }
             let r = pipeline::compute(&config)?;
             let table = roadtally::output::tables::calibration_table(&r.calibration);
             print!("{}", table_text(&table));

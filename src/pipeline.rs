@@ -20,10 +20,11 @@ pub enum PipelineError {
     #[error("study.toml: no `year` given and no permanent-counter record to take it from")]
     NoYear,
     /// The factor groups could not be formed.
-    #[error("factor groups: {0}")]
+    // The cause is the source; `{:#}` prints it once after the colon.
+    #[error("factor groups")]
     Factors(#[from] crate::factors::FactorError),
     /// The uncounted-segment estimate could not be set up.
-    #[error("uncounted-segment estimate: {0}")]
+    #[error("uncounted-segment estimate")]
     Spatial(#[from] crate::spatial::SpatialError),
 }
 
@@ -120,7 +121,7 @@ fn study_year(config: &Config, data: &StudyData) -> Option<i32> {
 /// Reads and checks a study without writing anything.
 pub fn check(config: &Config) -> Result<CheckReport, PipelineError> {
     let progress = Progress::new(config.quiet);
-    let data = input::read_study(&config.study, &progress)?;
+    let data = input::read_study_with(&config.study, &config.settings.read_options(), &progress)?;
     let year = study_year(config, &data);
     Ok(check_report(&data, year))
 }
@@ -176,7 +177,8 @@ pub fn alarms(r: &Results, settings: &crate::config::Settings) -> Vec<String> {
 pub fn compute(config: &Config) -> Result<Results, PipelineError> {
     let progress = Progress::new(config.quiet);
     let settings = &config.settings;
-    let mut data = input::read_study(&config.study, &progress)?;
+    let mut data =
+        input::read_study_with(&config.study, &config.settings.read_options(), &progress)?;
     let assignment =
         input::extras::read_group_assignment(&data.root, &mut data.rejected, &mut data.files)?;
     let year = study_year(config, &data).ok_or(PipelineError::NoYear)?;

@@ -5,6 +5,12 @@ use std::path::PathBuf;
 /// A problem that stops the run: exit code 2, no outputs.
 #[derive(Debug, thiserror::Error)]
 pub enum InputError {
+    /// The study folder itself is absent (or not a folder).
+    #[error("study folder not found: {path}")]
+    StudyNotFound {
+        /// The path given.
+        path: PathBuf,
+    },
     /// A required file is absent.
     #[error("{path}: required file is missing")]
     MissingFile {
@@ -40,6 +46,23 @@ pub enum InputError {
         path: PathBuf,
         /// The underlying error.
         reason: String,
+    },
+    /// The rows reported for a file do not add up to its lines: something was lost.
+    #[error(
+        "{path}: rows do not add up ({data_lines} data lines, {rows} rows read, {rejected} rejected{}): the file cannot be trusted",
+        used.map(|u| format!(", {u} used")).unwrap_or_default()
+    )]
+    Accounting {
+        /// File, relative to the study folder.
+        path: PathBuf,
+        /// Non-blank lines after the header.
+        data_lines: u64,
+        /// Rows read.
+        rows: u64,
+        /// Rows rejected.
+        rejected: u64,
+        /// Rows used (count files).
+        used: Option<u64>,
     },
     /// No segment survived reading.
     #[error("{path}: no segment survives reading (see rejected_rows.csv reasons above)")]

@@ -4,7 +4,7 @@ use std::path::Path;
 
 use chrono::NaiveDate;
 
-use super::csvfile::{cell, parse_count, read_error, show, CsvFile};
+use super::csvfile::{cell, parse_count, show, CsvFile};
 use super::error::InputError;
 use super::network::parse_number;
 use crate::model::FileSummary;
@@ -54,12 +54,7 @@ pub fn read_history(
     let mut out = Vec::new();
     let mut summary = FileSummary::new(HISTORY_FILE);
     let mut rec = csv::ByteRecord::new();
-    while f
-        .reader
-        .read_byte_record(&mut rec)
-        .map_err(|e| read_error(Path::new(HISTORY_FILE), e))?
-    {
-        let line = rec.position().map_or(0, |p| p.line());
+    while let Some(line) = f.next_row(&mut rec, rejects, &mut summary)? {
         summary.rows += 1;
         let parsed = (|| {
             let segment = segment_of(net, cell(&rec, c_seg))?;
@@ -93,6 +88,7 @@ pub fn read_history(
             }
         }
     }
+    f.finish(&summary)?;
     files.push(summary);
     Ok(out)
 }
@@ -119,12 +115,7 @@ pub fn read_toll(
     let mut out = Vec::new();
     let mut summary = FileSummary::new(TOLL_FILE);
     let mut rec = csv::ByteRecord::new();
-    while f
-        .reader
-        .read_byte_record(&mut rec)
-        .map_err(|e| read_error(Path::new(TOLL_FILE), e))?
-    {
-        let line = rec.position().map_or(0, |p| p.line());
+    while let Some(line) = f.next_row(&mut rec, rejects, &mut summary)? {
         summary.rows += 1;
         let raw = |c: usize| rec.get(c).map(show).unwrap_or_default();
         let parsed = (|| {
@@ -176,6 +167,7 @@ pub fn read_toll(
             }
         }
     }
+    f.finish(&summary)?;
     files.push(summary);
     Ok(Some(out))
 }
@@ -200,12 +192,7 @@ pub fn read_group_assignment(
     let mut out = Vec::new();
     let mut summary = FileSummary::new(ASSIGNMENT_FILE);
     let mut rec = csv::ByteRecord::new();
-    while f
-        .reader
-        .read_byte_record(&mut rec)
-        .map_err(|e| read_error(Path::new(ASSIGNMENT_FILE), e))?
-    {
-        let line = rec.position().map_or(0, |p| p.line());
+    while let Some(line) = f.next_row(&mut rec, rejects, &mut summary)? {
         summary.rows += 1;
         let get = |c: Option<usize>| c.and_then(|c| cell(&rec, c));
         let parsed = (|| {
@@ -245,6 +232,7 @@ pub fn read_group_assignment(
             }
         }
     }
+    f.finish(&summary)?;
     files.push(summary);
     Ok(Some(out))
 }

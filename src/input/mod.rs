@@ -38,10 +38,27 @@ pub fn read_settings_text(root: &Path) -> Result<Option<String>, InputError> {
         })
 }
 
-/// Reads the whole study folder.
+/// How to read what the files leave open.
+#[derive(Debug, Clone, Default)]
+pub struct ReadOptions {
+    /// The zone of count timestamps written without a UTC offset (IANA name in
+    /// study.toml's `time_zone`); `None`: such timestamps are rejected.
+    pub time_zone: Option<chrono_tz::Tz>,
+}
+
+/// Reads the whole study folder with default [`ReadOptions`].
 pub fn read_study(root: &Path, progress: &Progress) -> Result<StudyData, InputError> {
+    read_study_with(root, &ReadOptions::default(), progress)
+}
+
+/// Reads the whole study folder.
+pub fn read_study_with(
+    root: &Path,
+    options: &ReadOptions,
+    progress: &Progress,
+) -> Result<StudyData, InputError> {
     if !root.is_dir() {
-        return Err(InputError::MissingFile {
+        return Err(InputError::StudyNotFound {
             path: root.to_path_buf(),
         });
     }
@@ -58,6 +75,7 @@ pub fn read_study(root: &Path, progress: &Progress) -> Result<StudyData, InputEr
         &mut rejected,
         &mut files,
         progress,
+        options,
     )?;
     Ok(StudyData {
         root: root.to_path_buf(),

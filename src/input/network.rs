@@ -3,7 +3,7 @@
 use std::collections::HashMap;
 use std::path::Path;
 
-use super::csvfile::{cell, read_error, show, CsvFile};
+use super::csvfile::{cell, show, CsvFile};
 use super::error::InputError;
 use crate::model::FileSummary;
 use crate::model::RejectedRow;
@@ -51,12 +51,7 @@ fn read_nodes(
     let mut summary = FileSummary::new(NODES_FILE);
     let mut rec = csv::ByteRecord::new();
     let name = f.name.clone();
-    while f
-        .reader
-        .read_byte_record(&mut rec)
-        .map_err(|e| read_error(name.as_ref(), e))?
-    {
-        let line = rec.position().map_or(0, |p| p.line());
+    while let Some(line) = f.next_row(&mut rec, rejects, &mut summary)? {
         summary.rows += 1;
         let mut reject = |col: &str, val: &[u8], why: &str| {
             rejects.push(RejectedRow::new(&name, line, col, &show(val), why));
@@ -96,6 +91,7 @@ fn read_nodes(
         net.node_index.insert(id.clone(), net.nodes.len());
         net.nodes.push(Node { id, lon, lat });
     }
+    f.finish(&summary)?;
     files.push(summary);
     Ok(())
 }
@@ -133,12 +129,7 @@ fn read_segments(
     let mut summary = FileSummary::new(SEGMENTS_FILE);
     let mut rec = csv::ByteRecord::new();
     let name = f.name.clone();
-    while f
-        .reader
-        .read_byte_record(&mut rec)
-        .map_err(|e| read_error(name.as_ref(), e))?
-    {
-        let line = rec.position().map_or(0, |p| p.line());
+    while let Some(line) = f.next_row(&mut rec, rejects, &mut summary)? {
         summary.rows += 1;
         match parse_segment(&rec, &cols, c_oneway, c_route, c_speed, net) {
             Ok(seg) => {
@@ -151,6 +142,7 @@ fn read_segments(
             }
         }
     }
+    f.finish(&summary)?;
     files.push(summary);
     Ok(())
 }

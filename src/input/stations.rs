@@ -2,7 +2,7 @@
 
 use std::path::Path;
 
-use super::csvfile::{cell, read_error, show, CsvFile};
+use super::csvfile::{cell, show, CsvFile};
 use super::error::InputError;
 use crate::model::FileSummary;
 use crate::model::RejectedRow;
@@ -28,12 +28,7 @@ pub fn read_stations(
     let mut summary = FileSummary::new(STATIONS_FILE);
     let mut rec = csv::ByteRecord::new();
     let name = f.name.clone();
-    while f
-        .reader
-        .read_byte_record(&mut rec)
-        .map_err(|e| read_error(name.as_ref(), e))?
-    {
-        let line = rec.position().map_or(0, |p| p.line());
+    while let Some(line) = f.next_row(&mut rec, rejects, &mut summary)? {
         summary.rows += 1;
         let Some(id) = cell(&rec, c_id).map(|v| StationId(show(v))) else {
             rejects.push(RejectedRow::new(
@@ -97,6 +92,7 @@ pub fn read_stations(
             _ => unreachable!("a station without fault has a segment and a kind"),
         }
     }
+    f.finish(&summary)?;
     files.push(summary);
     Ok(list)
 }

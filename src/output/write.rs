@@ -96,42 +96,21 @@ pub fn write_all(r: &Results, settings: &Settings, out: &Path) -> Result<RunRepo
         settings.design.design_years,
     ));
     all.push(publish::totals_table(&r.totals, days));
-    super::ensure_dir(out)?;
-    let mut written = Vec::new();
-    for t in &all {
-        written.push(csv_out::write(out, t)?);
-    }
-    let fdir = out.join("factors");
-    super::ensure_dir(&fdir)?;
-    written.push(csv_out::write(
-        &fdir,
-        &tables::group_assignment(&r.factors),
-    )?);
-    let by_name: std::collections::BTreeMap<String, Table> =
-        all.iter().map(|t| (t.name.clone(), t.clone())).collect();
-    let refs: Vec<&Table> = all.iter().collect();
-    let cover = publish::cover(r, check.rows_read());
-    written.push(super::xlsx::write_workbook(
-        out,
-        "roadtally.xlsx",
-        &cover,
-        &refs,
-    )?);
-    written.push(super::geojson_out::write_segments_geojson(
-        out,
-        "segments.geojson",
-        &data.network,
-        &by_name["segment_statistics"],
-        "segment_id",
-    )?);
-    let report = publish::report_data(r, &by_name);
-    written.push(super::report::write_report(out, "report.html", &report)?);
-    let names: Vec<String> = written
-        .iter()
-        .map(|p| input::rejects::relative_name(out, p))
-        .collect();
-    let manifest = publish::manifest(data, settings, r.year, &names);
-    written.push(super::write_atomic(out, "run_manifest.json", &manifest)?);
+    super::place::check_target(&data.root, out)?;
+    // The whole set goes into a temporary folder beside `out`, then into place as a set.
+    let tmp = super::place::staging_dir(out)?;
+    let staged = write_set(&tmp, r, settings, &all, &check);
+    let rel: Vec<String> = match staged {
+        Ok(paths) => paths
+            .iter()
+            .map(|p| input::rejects::relative_name(&tmp, p))
+            .collect(),
+        Err(e) => {
+            let _ = std::fs::remove_dir_all(&tmp);
+            return Err(e);
+        }
+    };
+    let written = super::place::commit(&tmp, out, &rel, &mut |a, b| std::fs::rename(a, b))?;
     let mut basis_counts = [0; 3];
     for s in &r.segments {
         basis_counts[s.basis as usize] += 1;
@@ -152,4 +131,51 @@ pub fn write_all(r: &Results, settings: &Settings, out: &Path) -> Result<RunRepo
                 (t.daily_vkt, lo, hi)
             }),
     })
+}
+
+/// Writes the whole output set into `dir` and returns the paths written.
+fn write_set(
+    dir: &Path,
+    r: &Results,
+    settings: &Settings,
+    all: &[Table],
+    check: &CheckReport,
+) -> Result<Vec<PathBuf>, OutputError> {
+    let data = &r.data;
+    let mut written = Vec::new();
+    for t in all {
+        written.push(csv_out::write(dir, t)?);
+    }
+    let fdir = dir.join("factors");
+    super::ensure_dir(&fdir)?;
+    written.push(csv_out::write(
+        &fdir,
+        &tables::group_assignment(&r.factors),
+    )?);
+    let by_name: std::collections::BTreeMap<String, Table> =
+        all.iter().map(|t| (t.name.clone(), t.clone())).collect();
+    let refs: Vec<&Table> = all.iter().collect();
+    let cover = publish::cover(r, check.rows_read());
+    written.push(super::xlsx::write_workbook(
+        dir,
+        "roadtally.xlsx",
+        &cover,
+        &refs,
+    )?);
+    written.push(super::geojson_out::write_segments_geojson(
+        dir,
+        "segments.geojson",
+        &data.network,
+        &by_name["segment_statistics"],
+        "segment_id",
+    )?);
+    let report = publish::report_data(r, &by_name);
+    written.push(super::report::write_report(dir, "report.html", &report)?);
+    let names: Vec<String> = written
+        .iter()
+        .map(|p| input::rejects::relative_name(dir, p))
+        .collect();
+    let manifest = publish::manifest(data, settings, r.year, &names);
+    written.push(super::write_atomic(dir, "run_manifest.json", &manifest)?);
+    Ok(written)
 }

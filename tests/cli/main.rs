@@ -3,6 +3,7 @@
 //! Each test builds its study in its own temporary folder (see [`Study`]).
 
 mod generated;
+mod integrity;
 mod publish;
 mod reading;
 
@@ -11,9 +12,11 @@ use std::process::Output;
 
 use assert_cmd::Command;
 
-/// A study folder under a per-test temporary directory.
+/// A study folder `study/` under a per-test temporary directory, with its output folder
+/// `out/` beside it (never inside it: roadtally refuses that).
 pub struct Study {
     pub dir: tempfile::TempDir,
+    root: PathBuf,
 }
 
 /// A valid minimal network: three nodes, two segments (S2 one-way).
@@ -26,9 +29,10 @@ pub const STATIONS: &str = "station_id,segment_id,kind\nC1,S1,continuous\nK1,S2,
 impl Study {
     /// A study with the minimal network and stations and the given count file.
     pub fn new(counts: &str) -> Study {
-        let s = Study {
-            dir: tempfile::tempdir().expect("temp dir"),
-        };
+        let dir = tempfile::tempdir().expect("temp dir");
+        let root = dir.path().join("study");
+        std::fs::create_dir(&root).unwrap();
+        let s = Study { dir, root };
         s.write("network/nodes.csv", NODES);
         s.write("network/segments.csv", SEGMENTS);
         s.write("stations.csv", STATIONS);
@@ -37,7 +41,7 @@ impl Study {
     }
 
     pub fn path(&self) -> &Path {
-        self.dir.path()
+        &self.root
     }
 
     pub fn write(&self, rel: &str, text: &str) {
@@ -55,10 +59,10 @@ impl Study {
     }
 
     pub fn out(&self) -> PathBuf {
-        self.path().join("out")
+        self.dir.path().join("out")
     }
 
-    /// Runs `roadtally run <study> --out <study>/out --quiet`.
+    /// Runs `roadtally run <study> --out <out> --quiet`.
     pub fn run(&self) -> Output {
         roadtally()
             .args(["run", "--quiet", "--out"])

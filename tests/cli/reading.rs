@@ -226,7 +226,13 @@ fn assert_fatal(s: &Study, needle: &str) {
         err.contains(needle),
         "stderr {err:?} should name {needle:?}"
     );
-    assert_eq!(err.lines().count(), 1, "one message: {err}");
+    // One message (a TOML error keeps its own lines: position and caret).
+    assert_eq!(
+        err.matches("roadtally: error:").count(),
+        1,
+        "one message: {err}"
+    );
+    assert!(err.starts_with("roadtally: error:"), "{err}");
     assert!(!s.out().exists(), "no output on a fatal problem");
 }
 

@@ -15,20 +15,20 @@ pub(super) fn conflicting(d: Direction) -> &'static [Direction] {
 pub(super) fn fold(
     store: &mut CountStore,
     stations: &StationList,
-    row: CountRow,
+    row: &CountRow,
 ) -> Result<(), Fault> {
     let date = row.stamp.local.date();
     let days = &mut store.days[row.station];
     match days.entry(date) {
-        std::collections::btree_map::Entry::Occupied(mut e) => fold_into(e.get_mut(), &row)?,
+        std::collections::btree_map::Entry::Occupied(mut e) => fold_into(e.get_mut(), row)?,
         std::collections::btree_map::Entry::Vacant(e) => {
             // A day is only created by a row that lands in it, so no day is ever empty.
             let mut fresh = DayCounts::new(row.station, date, row.stamp.offset_min);
-            fold_into(&mut fresh, &row)?;
+            fold_into(&mut fresh, row)?;
             e.insert(fresh);
         }
     }
-    count_year(store, stations, &row);
+    count_year(store, stations, row);
     Ok(())
 }
 
@@ -46,7 +46,7 @@ pub(super) fn fold_into(day: &mut DayCounts, row: &CountRow) -> Result<(), Fault
     if rel < 0 || rel % 15 != 0 || rel as usize / 15 + n > MAX_DAY_QUARTERS {
         return Err((
             "start",
-            row.stamp.local.to_string(),
+            String::new(),
             "UTC offset does not fit the other records of this local day".into(),
         ));
     }
@@ -56,7 +56,7 @@ pub(super) fn fold_into(day: &mut DayCounts, row: &CountRow) -> Result<(), Fault
         if day.dir(*d).is_some_and(|dd| dd.covered & mask != 0) {
             return Err((
                 "start",
-                row.stamp.local.to_string(),
+                String::new(),
                 format!(
                     "overlaps a record read earlier for this station ({} {})",
                     d.as_str(),

@@ -31,9 +31,12 @@ mod parse;
 #[cfg(test)]
 mod tests;
 
-use super::csvfile::{cell, parse_count, read_error, show, CsvFile};
+use super::csvfile::{
+    cell, check_accounting, parse_count, quote_fault_parts, show, CsvFile, LineReader,
+};
 use super::error::InputError;
-use super::time::{parse_rfc3339, LocalStamp};
+use super::time::{parse_start, LocalStamp, Start};
+use super::ReadOptions;
 use crate::model::counts::{DirectionDay, MAX_DAY_HOURS, MAX_DAY_QUARTERS};
 use crate::model::FileSummary;
 use crate::model::RejectedRow;
@@ -54,18 +57,32 @@ pub fn count_files(root: &Path) -> Result<Vec<(PathBuf, String)>, InputError> {
     let entries = std::fs::read_dir(&dir).map_err(|_| InputError::MissingFile {
         path: PathBuf::from(COUNTS_DIR),
     })?;
-    let mut files: Vec<(PathBuf, String)> = entries
-        .filter_map(|e| e.ok())
-        .map(|e| e.path())
-        .filter(|p| {
-            let n = p.file_name().and_then(|n| n.to_str()).unwrap_or("");
-            p.is_file() && (n.ends_with(".csv") || n.ends_with(".csv.gz"))
-        })
-        .map(|p| {
-            let name = format!("{COUNTS_DIR}/{}", p.file_name().unwrap().to_string_lossy());
-            (p, name)
-        })
-        .collect();
+    let mut files: Vec<(PathBuf, String)> = Vec::new();
+    for e in entries {
+        let e = e.map_err(|e| InputError::Unreadable {
+            path: PathBuf::from(COUNTS_DIR),
+            reason: e.to_string(),
+        })?;
+        let p = e.path();
+        let n = e.file_name().to_string_lossy().into_owned();
+        if !(n.ends_with(".csv") || n.ends_with(".csv.gz")) {
+            continue;
+        }
+        let name = format!("{COUNTS_DIR}/{n}");
+        // An entry named like a count file is a count file: one that cannot be opened as a
+        // regular file (a folder, a broken or looping link, a device) is fatal, never skipped.
+        let unreadable = |reason: String| InputError::Unreadable {
+            path: PathBuf::from(&name),
+            reason,
+        };
+        match std::fs::metadata(&p) {
+            Err(e) => return Err(unreadable(e.to_string())),
+            Ok(m) if m.is_dir() => return Err(unreadable("it is a folder, not a file".into())),
+            Ok(m) if !m.is_file() => return Err(unreadable("it is not a regular file".into())),
+            Ok(_) => {}
+        }
+        files.push((p, name));
+    }
     files.sort_by(|a, b| a.1.cmp(&b.1));
     if files.is_empty() {
         return Err(InputError::NoCountFiles {
@@ -88,13 +105,27 @@ pub fn read_counts(
     rejects: &mut Vec<RejectedRow>,
     files: &mut Vec<FileSummary>,
     progress: &Progress,
+    options: &ReadOptions,
 ) -> Result<CountStore, InputError> {
     let split = Split {
         min_bytes: PARALLEL_MIN_BYTES,
         range_bytes: RANGE_BYTES,
         workers: rayon::current_num_threads(),
     };
-    read_counts_split(root, net, stations, rejects, files, progress, split)
+    let ctx = Ctx {
+        net,
+        stations,
+        zone: options.time_zone.as_ref(),
+    };
+    read_counts_split(root, &ctx, rejects, files, progress, split)
+}
+
+/// What every row check needs: the network, the stations and the study's time zone.
+#[derive(Clone, Copy)]
+pub(crate) struct Ctx<'a> {
+    pub(crate) net: &'a Network,
+    pub(crate) stations: &'a StationList,
+    pub(crate) zone: Option<&'a chrono_tz::Tz>,
 }
 
 /// When and how a plain count file is split into byte ranges read in parallel.
@@ -110,14 +141,14 @@ pub(crate) struct Split {
 
 pub(crate) fn read_counts_split(
     root: &Path,
-    net: &Network,
-    stations: &StationList,
+    ctx: &Ctx,
     rejects: &mut Vec<RejectedRow>,
     files: &mut Vec<FileSummary>,
     progress: &Progress,
     split: Split,
 ) -> Result<CountStore, InputError> {
     let list = count_files(root)?;
+    let stations = ctx.stations;
     let mut store = CountStore {
         days: vec![BTreeMap::new(); stations.stations.len()],
         ..CountStore::default()
@@ -131,7 +162,7 @@ pub(crate) fn read_counts_split(
         let len = std::fs::metadata(path).map_or(0, |m| m.len());
         let parallel = split.workers > 1 && len >= split.min_bytes && !name.ends_with(".gz");
         let done = if parallel {
-            read_parallel(path, name, len, net, stations, split)?
+            read_parallel(path, name, len, ctx, split)?
         } else {
             None
         };
@@ -142,7 +173,7 @@ pub(crate) fn read_counts_split(
                 rejects.extend(file.rejects);
                 file.summary
             }
-            _ => read_one(path, name, net, stations, &mut store, rejects, &bar)?,
+            _ => read_one(path, name, ctx, &mut store, rejects, &bar)?,
         };
         files.push(summary);
     }
@@ -158,13 +189,13 @@ pub(crate) fn read_counts_split(
 /// Why a row was rejected, and the station-day whose state decided it (for fold faults).
 type Outcome = Result<(), (Fault, Option<(usize, NaiveDate)>)>;
 
-/// Checks one record and folds it into `store`.
+/// Checks one record and folds it into `store`. A fold fault (overlap, offset) names the
+/// start cell's text as the file has it.
 fn process(
     rec: &csv::ByteRecord,
     width: usize,
     cols: &Columns,
-    net: &Network,
-    stations: &StationList,
+    ctx: &Ctx,
     store: &mut CountStore,
     cache: &mut Option<(Vec<u8>, Result<usize, String>)>,
 ) -> Outcome {
@@ -178,16 +209,30 @@ fn process(
             None,
         ));
     }
-    let row = parse_row(rec, cols, net, stations, cache).map_err(|f| (f, None))?;
+    let mut row =
+        parse_row(rec, cols, ctx.net, ctx.stations, cache, ctx.zone).map_err(|f| (f, None))?;
     let key = (row.station, row.stamp.local.date());
-    fold(store, stations, row).map_err(|f| (f, Some(key)))
+    let later = row.later.take();
+    let first = match fold(store, ctx.stations, &row) {
+        Ok(()) => return Ok(()),
+        Err(f) => f,
+    };
+    // A clock time the zone repeats: the first row read for it is the earlier reading, a
+    // second one (that the earlier reading would overlap) the later reading.
+    if let Some(l) = later {
+        row.stamp = l;
+        if fold(store, ctx.stations, &row).is_ok() {
+            return Ok(());
+        }
+    }
+    let raw = rec.get(cols.start).unwrap_or(b"").trim_ascii();
+    Err(((first.0, show(raw), first.2), Some(key)))
 }
 
 fn read_one(
     path: &Path,
     name: &str,
-    net: &Network,
-    stations: &StationList,
+    ctx: &Ctx,
     store: &mut CountStore,
     rejects: &mut Vec<RejectedRow>,
     bar: &crate::progress::Bar,
@@ -196,31 +241,39 @@ fn read_one(
     let cols = Columns::find(&f)?;
     let width = f.width();
     let mut summary = FileSummary::new(name);
+    let used_before = store.rows_used;
     let mut rec = csv::ByteRecord::new();
     let mut cache: Option<(Vec<u8>, Result<usize, String>)> = None;
     let mut last_bytes = 0u64;
-    loop {
-        let more = f
-            .reader
-            .read_byte_record(&mut rec)
-            .map_err(|e| read_error(Path::new(name), e))?;
-        if !more {
-            break;
-        }
+    while let Some(next) = f.next_record(&mut rec)? {
         summary.rows += 1;
-        let pos = rec.position().expect("records carry a position");
         if summary.rows.is_multiple_of(65_536) {
-            bar.inc(pos.byte().saturating_sub(last_bytes));
-            last_bytes = pos.byte();
+            let pos = f.lines.bytes;
+            bar.inc(pos.saturating_sub(last_bytes));
+            last_bytes = pos;
         }
-        match process(&rec, width, &cols, net, stations, store, &mut cache) {
+        let line = match next {
+            Ok(line) => line,
+            Err(row) => {
+                rejects.push(row);
+                summary.rejected += 1;
+                continue;
+            }
+        };
+        match process(&rec, width, &cols, ctx, store, &mut cache) {
             Ok(()) => store.rows_used += 1,
             Err(((col, val, why), _)) => {
-                rejects.push(RejectedRow::new(name, pos.line(), col, &val, why));
+                rejects.push(RejectedRow::new(name, line, col, &val, why));
                 summary.rejected += 1;
             }
         }
     }
+    check_accounting(
+        name,
+        f.data_lines(),
+        &summary,
+        Some(store.rows_used - used_before),
+    )?;
     bar.inc(
         std::fs::metadata(path)
             .map_or(0, |m| m.len())

@@ -22,33 +22,37 @@ pub(super) struct FileRead {
 /// One byte range of a file, parsed on its own as if it were a whole file.
 pub(super) struct Part {
     pub(super) store: CountStore,
-    /// (line within the range, fault, station-day for faults that depend on earlier rows).
-    pub(super) rejects: Vec<(u64, Fault, Option<DayKey>)>,
+    /// (line within the range, column, value, reason, station-day for faults that depend on
+    /// earlier rows).
+    pub(super) rejects: Vec<(u64, String, String, String, Option<DayKey>)>,
     pub(super) rows: u64,
-    /// Newlines in the range (to turn its line numbers into the file's).
+    /// Lines in the range (to turn its line numbers into the file's).
     pub(super) newlines: u64,
+    /// Blank lines in the range.
+    pub(super) blank: u64,
 }
 
 /// Reads a plain count file in byte ranges on the rayon pool, merging the ranges in file
 /// order. Ranges start after a newline that ends a non-empty record line, so each range
 /// parser starts exactly where the sequential reader would start a record, and line numbers
-/// are the range's own plus the newlines before it. `None` means "read it sequentially":
-/// the file holds a quote (a quoted field may span a range boundary), its line ends are not
-/// plain `\n`, it is too small to split, a range failed to parse, or two ranges share a
-/// station-day in a way that cannot be merged exactly as the sequential reader would fold it.
+/// are the range's own plus the newlines before it. A record is one line (see `csvfile`), so
+/// quotes and line ends need no special care. `None` means "read it sequentially": the file
+/// is too small to split, a range could not be read, or two ranges share a station-day in a
+/// way that cannot be merged exactly as the sequential reader would fold it.
 /// Fatal errors of the header are returned as the sequential reader would return them.
 pub(super) fn read_parallel(
     path: &Path,
     name: &str,
     len: u64,
-    net: &Network,
-    stations: &StationList,
+    ctx: &Ctx,
     split: Split,
 ) -> Result<Option<FileRead>, InputError> {
     let f = CsvFile::open(path, name)?;
     let cols = Columns::find(&f)?;
     let width = f.width();
+    let header = f.header.clone();
     drop(f);
+    let stations = ctx.stations;
     let Some(bounds) = range_bounds(path, len, split.range_bytes) else {
         return Ok(None);
     };
@@ -65,16 +69,17 @@ pub(super) fn read_parallel(
     };
     // Lines before the first range: the header line.
     let mut line_offset = 1u64;
+    let mut data_lines = 0u64;
     for batch in ranges.chunks(split.workers.max(1)) {
         let parts: Vec<Option<Part>> = batch
             .par_iter()
-            .map(|&(a, b)| parse_range(path, a, b, width, &cols, net, stations, empty()))
+            .map(|&(a, b)| parse_range(path, a, b, width, &header, &cols, ctx, empty()))
             .collect();
         for part in parts {
             let Some(part) = part else {
                 return Ok(None);
             };
-            let keys: HashSet<DayKey> = part.rejects.iter().filter_map(|r| r.2).collect();
+            let keys: HashSet<DayKey> = part.rejects.iter().filter_map(|r| r.4).collect();
             if !absorb_check(&acc.store, &part.store, &keys) {
                 return Ok(None);
             }
@@ -82,13 +87,15 @@ pub(super) fn read_parallel(
             acc.fold_keys.extend(keys);
             acc.summary.rows += part.rows;
             acc.summary.rejected += part.rejects.len() as u64;
-            for (line, (col, val, why), _) in part.rejects {
+            for (line, col, val, why, _) in part.rejects {
                 acc.rejects
-                    .push(RejectedRow::new(name, line + line_offset, col, &val, why));
+                    .push(RejectedRow::new(name, line + line_offset, &col, &val, why));
             }
             line_offset += part.newlines;
+            data_lines += part.newlines - part.blank;
         }
     }
+    check_accounting(name, data_lines, &acc.summary, Some(acc.store.rows_used))?;
     Ok(Some(acc))
 }
 
@@ -106,7 +113,12 @@ pub(super) fn range_bounds(path: &Path, len: u64, range_bytes: u64) -> Option<Ve
     };
     let head = read_at(0)?;
     let nl = head.iter().position(|&b| b == b'\n')?;
-    if nl == 0 || head[..nl].iter().any(|&b| b == b'"' || b == b'\r') {
+    // The header must be the first line (a blank first line moves it).
+    if head[..nl]
+        .strip_suffix(b"\r")
+        .unwrap_or(&head[..nl])
+        .is_empty()
+    {
         return None;
     }
     let header_end = nl as u64 + 1;
@@ -115,12 +127,10 @@ pub(super) fn range_bounds(path: &Path, len: u64, range_bytes: u64) -> Option<Ve
     let mut bounds = vec![header_end];
     for i in 1..n {
         let target = header_end + body * i / n;
-        // A boundary b: byte b-1 is `\n` and byte b-2 is neither `\n` nor `\r`, so the line
-        // before b is a non-empty record ending in a plain newline.
-        let from = target.max(*bounds.last()? + 2) - 2;
+        // A boundary b: byte b-1 is `\n`, so b starts a line.
+        let from = target.max(*bounds.last()? + 1) - 1;
         let chunk = read_at(from)?;
-        let hit = (2..chunk.len())
-            .find(|&k| chunk[k - 1] == b'\n' && chunk[k - 2] != b'\n' && chunk[k - 2] != b'\r');
+        let hit = (1..chunk.len()).find(|&k| chunk[k - 1] == b'\n');
         if let Some(k) = hit {
             let b = from + k as u64;
             if b < len && b > *bounds.last()? {
@@ -132,67 +142,47 @@ pub(super) fn range_bounds(path: &Path, len: u64, range_bytes: u64) -> Option<Ve
     (bounds.len() > 2).then_some(bounds)
 }
 
-/// Passes bytes through, noting any quote.
-pub(super) struct Scan<R> {
-    pub(super) inner: R,
-    pub(super) quote: bool,
-}
-
-impl<R: std::io::Read> std::io::Read for Scan<R> {
-    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
-        let n = self.inner.read(buf)?;
-        self.quote |= buf[..n].contains(&b'"');
-        Ok(n)
-    }
-}
-
-/// Parses bytes `a..b` of a file into `store`; `None` when the range holds a quote or fails.
+/// Parses bytes `a..b` of a file into `store`; `None` when the range cannot be read.
 #[allow(clippy::too_many_arguments)]
 pub(super) fn parse_range(
     path: &Path,
     a: u64,
     b: u64,
     width: usize,
+    header: &[String],
     cols: &Columns,
-    net: &Network,
-    stations: &StationList,
+    ctx: &Ctx,
     mut store: CountStore,
 ) -> Option<Part> {
-    use std::io::{Read, Seek, SeekFrom};
+    use std::io::{Seek, SeekFrom};
     let mut file = std::fs::File::open(path).ok()?;
     file.seek(SeekFrom::Start(a)).ok()?;
-    let scan = Scan {
-        inner: file.take(b - a),
-        quote: false,
-    };
-    let mut reader = csv::ReaderBuilder::new()
-        .has_headers(false)
-        .flexible(true)
-        .buffer_capacity(1 << 20)
-        .from_reader(scan);
+    let mut lines = LineReader::new(std::io::BufReader::with_capacity(
+        1 << 20,
+        std::io::Read::take(file, b - a),
+    ));
     let mut rec = csv::ByteRecord::new();
     let mut cache: Option<(Vec<u8>, Result<usize, String>)> = None;
     let mut rejects = Vec::new();
     let mut rows = 0u64;
-    while reader.read_byte_record(&mut rec).ok()? {
+    while let Some((line, parsed)) = lines.next_record(&mut rec).ok()? {
         rows += 1;
-        let line = rec.position().expect("records carry a position").line();
-        match process(&rec, width, cols, net, stations, &mut store, &mut cache) {
-            Ok(()) => store.rows_used += 1,
-            Err((fault, key)) => rejects.push((line, fault, key)),
+        if let Err(q) = parsed {
+            let (col, val, why) = quote_fault_parts(header, lines.last_line(), &q);
+            rejects.push((line, col, val, why, None));
+            continue;
         }
-    }
-    // The parser counts every `\n` it consumes, starting from line 1, and it has consumed
-    // the whole range.
-    let newlines = reader.position().line() - 1;
-    if reader.into_inner().quote {
-        return None;
+        match process(&rec, width, cols, ctx, &mut store, &mut cache) {
+            Ok(()) => store.rows_used += 1,
+            Err(((col, val, why), key)) => rejects.push((line, col.to_string(), val, why, key)),
+        }
     }
     Some(Part {
         store,
         rejects,
         rows,
-        newlines,
+        newlines: lines.line,
+        blank: lines.blank,
     })
 }
 

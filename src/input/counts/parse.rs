@@ -47,6 +47,8 @@ pub(super) struct CountRow {
     pub(super) station: usize,
     pub(super) direction: Direction,
     pub(super) stamp: LocalStamp,
+    /// The later reading of a clock time the study's zone repeats (fall back).
+    pub(super) later: Option<LocalStamp>,
     pub(super) minutes: u32,
     pub(super) vehicles: Option<u32>,
     pub(super) axles: Option<u32>,
@@ -77,6 +79,7 @@ pub(super) fn parse_row(
     net: &Network,
     stations: &StationList,
     cache: &mut Option<(Vec<u8>, Result<usize, String>)>,
+    zone: Option<&chrono_tz::Tz>,
 ) -> Result<CountRow, Fault> {
     let sid =
         cell(rec, cols.station).ok_or_else(|| fault("station_id", b"", "station_id is empty"))?;
@@ -109,13 +112,8 @@ pub(super) fn parse_row(
         ));
     }
     let start_raw = rec.get(cols.start).unwrap_or(b"").trim_ascii();
-    let stamp = parse_rfc3339(start_raw).ok_or_else(|| {
-        fault(
-            "start",
-            start_raw,
-            "start is not an RFC 3339 timestamp with a UTC offset",
-        )
-    })?;
+    let Start { stamp, later } =
+        parse_start(start_raw, zone).map_err(|e| fault("start", start_raw, e.reason()))?;
     let min_raw = rec.get(cols.minutes).unwrap_or(b"").trim_ascii();
     let minutes = match min_raw {
         b"15" => 15,
@@ -197,6 +195,7 @@ pub(super) fn parse_row(
         station,
         direction,
         stamp,
+        later,
         minutes,
         vehicles,
         axles,

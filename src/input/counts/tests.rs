@@ -31,10 +31,14 @@ fn read(root: &Path, split: Split) -> (String, Vec<RejectedRow>, Vec<FileSummary
     let (mut rejects, mut files) = (Vec::new(), Vec::new());
     let net = network::read_network(root, &mut rejects, &mut files).unwrap();
     let st = stations::read_stations(root, &net, &mut rejects, &mut files).unwrap();
+    let ctx = Ctx {
+        net: &net,
+        stations: &st,
+        zone: None,
+    };
     let store = read_counts_split(
         root,
-        &net,
-        &st,
+        &ctx,
         &mut rejects,
         &mut files,
         &Progress::hidden(),
@@ -65,7 +69,12 @@ fn splits(root: &Path, range_bytes: u64) -> bool {
     let st = stations::read_stations(root, &net, &mut rejects, &mut files).unwrap();
     let path = continuous_file(root);
     let len = std::fs::metadata(&path).unwrap().len();
-    read_parallel(&path, "x", len, &net, &st, parallel(range_bytes))
+    let ctx = Ctx {
+        net: &net,
+        stations: &st,
+        zone: None,
+    };
+    read_parallel(&path, "x", len, &ctx, parallel(range_bytes))
         .unwrap()
         .is_some()
 }
@@ -139,14 +148,32 @@ fn overlaps_and_offset_clashes_across_ranges_keep_the_first_row() {
 }
 
 #[test]
-fn quotes_and_crlf_fall_back_to_the_sequential_reader() {
+fn quotes_and_crlf_split_and_agree_with_the_sequential_reader() {
+    // A quoted field across a newline is two bad lines, a stray quote one, a well-quoted
+    // row is read: ranges and the sequential reader must agree on every one.
     let quoted = study(|mut t| {
+        let second = t.lines().nth(1).unwrap().to_string();
         t.push_str("\"C\nX\",fwd,2025-01-01T00:00:00-05:00,60,3\n");
+        t.push_str(&second.replacen(',', ",\"", 1));
+        t.push('\n');
+        // Well quoted, and in another year so it overlaps nothing.
+        let other_year = second.replacen(",2025-", ",2019-", 1);
+        t.push_str(&format!("\"{}\n", other_year.replacen(',', "\",", 1)));
         t
     });
-    assert!(!splits(quoted.path(), 997));
+    assert!(splits(quoted.path(), 997));
     assert_same(quoted.path(), &[997, 4099]);
+    let (_, rejects, _) = read(quoted.path(), SEQUENTIAL);
+    let quote_faults = rejects
+        .iter()
+        .filter(|r| r.reason.contains("quote"))
+        .count();
+    assert_eq!(quote_faults, 3, "{rejects:?}");
     let crlf = study(|t| t.replace('\n', "\r\n"));
-    assert!(!splits(crlf.path(), 997));
+    assert!(splits(crlf.path(), 997));
     assert_same(crlf.path(), &[997]);
+    assert_eq!(
+        read(crlf.path(), SEQUENTIAL).0,
+        read(study(|t| t).path(), SEQUENTIAL).0
+    );
 }
