@@ -13,11 +13,14 @@
 //!   G    growth factor from the count year to the study year
 //! ```
 //! and the count's AADT is the mean of its periods' estimates. **Partial days**: a count is cut
-//! into consecutive 24-hour periods from its first hour (a count started at 10:00 gives periods
-//! 10:00-10:00); a period that straddles two local days factors each day's part with that
+//! into consecutive 24-hour periods from its first counted hour (a count started at 12:00 on
+//! day 1 and ended at 12:00 on day 3 gives the periods 12:00-12:00 and 12:00-12:00, all 48 of
+//! its hours); a period that straddles two local days factors each day's part with that
 //! day's factor, `V × F = Σ_k V_k F_k` (so `F` is the volume-weighted mean of the two
-//! factors); hours left over after the last full period are not used. Hours must be
-//! consecutive: a gap starts a new run of periods.
+//! factors); hours left over after the last full period are not used. **Gaps**: isolated
+//! missing hours (runs of at most `max_gap_hours`, at most `max_filled_hours_per_period` in
+//! one period) are filled from the count's own other days or the group's hourly profile; a
+//! longer gap starts a new run of periods ([`gaps`]).
 //!
 //! # Interval
 //! The error of an expanded count is modelled in log space as the sum of independent parts:
@@ -30,6 +33,8 @@
 //!   s_g   year-to-year coefficient of variation of growth (per year of age)
 //!   s_a   coefficient of variation of the axle-correction factor (axle counts only)
 //! ```
+//! plus, for a count with filled hours, `Σ_p (F_p / V_p)² · cv_fill² / n²` (the filled share
+//! F_p / V_p of each period p times the error of a filled hour, [`gaps::fill_variance`]),
 //! and the 95 % interval is `AADT · exp(±1.96 · c · s)`, where the scale *c* is calibrated by
 //! `roadtally calibrate`, which draws simulated short counts from every permanent counter and
 //! expands them with factors computed without that counter (see [`calibration`]).
@@ -42,6 +47,7 @@
 //! memory). AASHTO *Guidelines for Traffic Data Programs* (2009; from memory).
 
 pub mod calibration;
+pub mod gaps;
 pub mod stage;
 
 // Defined below this stage (factors, model); re-exported where the expansion maths uses them.
@@ -74,6 +80,18 @@ pub struct ExpansionParams {
     /// fits best when that fit's chi-square distance is below this share of its own group's.
     /// 0 turns profile assignment off. Default 0.5 (project choice).
     pub profile_switch_ratio: f64,
+    /// Longest run of consecutive missing hours inside a short count that is filled; longer
+    /// gaps are left open and split the count. Default 2 (project choice: a counter reset or
+    /// a short outage, not a sensor down for a morning).
+    pub max_gap_hours: usize,
+    /// Most filled hours in one 24-hour period; a period with more is not used. Default 3
+    /// (project choice: at most an eighth of a day is estimated rather than counted).
+    pub max_filled_hours_per_period: usize,
+    /// Relative error (coefficient of variation) of the volume of a filled hour, carried into
+    /// the interval. Default 0.25 (project choice, conservative: an hour's volume varies by
+    /// 10-20 % from day to day at one site (common practice), an estimate from the count's
+    /// other day or the group's profile adds to that).
+    pub filled_hour_cv: f64,
 }
 
 impl Default for ExpansionParams {
@@ -86,6 +104,9 @@ impl Default for ExpansionParams {
             calibration_hours: vec![24, 48, 72],
             calibration_starts: 40,
             profile_switch_ratio: 0.5,
+            max_gap_hours: 2,
+            max_filled_hours_per_period: 3,
+            filled_hour_cv: 0.25,
         }
     }
 }
@@ -115,6 +136,8 @@ pub struct CountPeriod {
     pub volume: f64,
     /// (local date, share of the period's volume counted on that date); shares sum to 1.
     pub parts: Vec<(NaiveDate, f64)>,
+    /// Part of `volume` in filled (estimated, not counted) hours.
+    pub filled: f64,
 }
 
 impl CountPeriod {
@@ -123,6 +146,7 @@ impl CountPeriod {
         CountPeriod {
             volume,
             parts: vec![(date, 1.0)],
+            filled: 0.0,
         }
     }
 }
@@ -154,7 +178,11 @@ pub fn periods(hours: &[CountHour]) -> Vec<CountPeriod> {
                     _ => parts.push((h.date, share(h))),
                 }
             }
-            out.push(CountPeriod { volume, parts });
+            out.push(CountPeriod {
+                volume,
+                parts,
+                filled: 0.0,
+            });
             run.clear();
         }
     }
@@ -212,7 +240,7 @@ impl Expanded {
 #[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
 pub enum ExpansionError {
     /// Fewer than 24 consecutive hours.
-    #[error("no 24 consecutive hours in the count")]
+    #[error("no 24 consecutive usable hours in the count")]
     NoCompleteDay,
 }
 
@@ -252,7 +280,8 @@ pub fn expand(
     let var = s_f * s_f * (1.0 + 1.0 / n_g)
         + s_d * s_d / n
         + growth.log_sd * growth.log_sd
-        + acf_cv * acf_cv;
+        + acf_cv * acf_cv
+        + gaps::fill_variance(&count.periods, params.filled_hour_cv);
     Ok(Expanded {
         aadt,
         log_sd: var.sqrt(),

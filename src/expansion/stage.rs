@@ -1,8 +1,11 @@
 //! The short-count stage: every short count on the network to an AADT of the study year.
 //!
 //! A station's records are split into counts by calendar year; each count's hours (two-way,
-//! quality-control rejections left out) are cut into 24-hour periods and expanded with the
-//! factors of its segment's group ([`super::expand_for_year`]). Axle counts use the group's
+//! quality-control rejections left out) run from its first to its last counted hour, isolated
+//! missing hours are filled and the hours are cut into 24-hour periods ([`super::gaps`]), which
+//! are expanded with the factors of its segment's group ([`super::expand_for_year`]). A count
+//! with no usable 24 hours, or a short station with no count at all, is listed in
+//! [`ExpansionOutput::unexpanded`] with the reason. Axle counts use the group's
 //! axle-correction factor. Counts on one segment are combined by inverse-variance weights.
 //! Heavy shares come from the count itself where it is classified (heavy volumes expanded with
 //! the group's heavy-vehicle factors), else from the nearest source the spatial stage finds.
@@ -12,9 +15,9 @@ use std::collections::BTreeMap;
 use chrono::{Datelike, NaiveDate};
 
 use super::calibration::Calibration;
+use super::gaps::{self, GapRule, Slot};
 use super::{
-    combine, expand_for_year, CountHour, Expanded, ExpansionParams, GroupFactors, Growth, Measure,
-    ShortCount,
+    combine, expand_for_year, Expanded, ExpansionParams, GroupFactors, Growth, Measure, ShortCount,
 };
 use crate::factors::stage::FactorOutput;
 use crate::model::views::{complete_classes, two_way_hour, DayFilter, Measured};
@@ -37,8 +40,14 @@ pub struct ExpandedCount {
     pub first: NaiveDate,
     /// Last local date.
     pub last: NaiveDate,
-    /// Hours of consecutive two-way data used.
+    /// Hours behind the 24-hour periods used (24 per period, filled hours included).
     pub hours: usize,
+    /// Of those, hours filled rather than counted.
+    pub filled_hours: usize,
+    /// Of the filled hours, those filled from the count's own other days.
+    pub filled_from_own_days: usize,
+    /// Two-way hours counted (used in a period or not).
+    pub counted_hours: usize,
     /// `vehicles` or `axles`.
     pub measure: &'static str,
     /// Classified.
@@ -82,10 +91,25 @@ pub struct SegmentCount {
 pub struct ExpansionOutput {
     /// Every expanded count.
     pub counts: Vec<ExpandedCount>,
-    /// Counts that could not be expanded: station, year, reason.
-    pub unexpanded: Vec<(usize, i32, String)>,
+    /// Counts that could not be expanded, and short stations without any count.
+    pub unexpanded: Vec<Unexpanded>,
     /// Per segment with at least one expanded count.
     pub segments: BTreeMap<usize, SegmentCount>,
+}
+
+/// A short count (or a short station) that was not expanded.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Unexpanded {
+    /// Station index.
+    pub station: usize,
+    /// Calendar year of the count; `None` for a station without any count.
+    pub year: Option<i32>,
+    /// First and last local date of the count.
+    pub dates: Option<(NaiveDate, NaiveDate)>,
+    /// Two-way hours counted.
+    pub counted_hours: usize,
+    /// Why it was not expanded.
+    pub reason: String,
 }
 
 /// What the stage reads.
@@ -118,6 +142,10 @@ pub fn run(input: &ExpansionInput, params: &ExpansionParams) -> ExpansionOutput 
         input.calibration,
     );
     let mut out = ExpansionOutput::default();
+    let rule = GapRule {
+        max_gap_hours: params.max_gap_hours,
+        max_filled_per_period: params.max_filled_hours_per_period,
+    };
     for (s, station) in data.stations.stations.iter().enumerate() {
         if station.kind != StationKind::Short {
             continue;
@@ -128,8 +156,22 @@ pub fn run(input: &ExpansionInput, params: &ExpansionParams) -> ExpansionOutput 
         for d in data.counts.days[s].values() {
             by_year.entry(d.date.year()).or_default().push(d);
         }
+        if by_year.is_empty() {
+            out.unexpanded.push(Unexpanded {
+                station: s,
+                year: None,
+                dates: None,
+                counted_hours: 0,
+                reason: "no count row of the station was read (see rejected_rows.csv)".into(),
+            });
+            continue;
+        }
         for (cy, days) in by_year {
-            let mut hours: Vec<CountHour> = Vec::new();
+            let first = days.first().map(|d| d.date).expect("a year has days");
+            let last = days.last().map(|d| d.date).expect("a year has days");
+            // Runs of consecutive local dates, each a row of clock-hour slots.
+            let mut runs: Vec<Vec<Slot>> = Vec::new();
+            let mut diagnosis = Diagnosis::default();
             let mut measure = Measured::Vehicles;
             if days
                 .iter()
@@ -146,32 +188,33 @@ pub fn run(input: &ExpansionInput, params: &ExpansionParams) -> ExpansionOutput 
             let mut classified = false;
             for d in &days {
                 let excl = |x: Direction| filter.excluded(s, d.date, x);
-                let mut follows = prev.is_some_and(|p| p.succ_opt() == Some(d.date));
+                if prev.and_then(|p| p.succ_opt()) != Some(d.date) {
+                    runs.push(Vec::new());
+                }
+                prev = Some(d.date);
+                let run = runs.last_mut().expect("a run was started");
+                diagnosis.look_at(d, oneway, &excl);
                 let mut complete = true;
                 let weekday = d.date.weekday().num_days_from_monday() < 5;
                 let mut day_hours: Vec<(u64, Option<u64>, Option<u64>)> = Vec::new();
                 for (k, h) in d.day_hours().enumerate() {
-                    match two_way_hour(d, h, oneway, measure, &excl) {
+                    let hour = two_way_hour(d, h, oneway, measure, &excl);
+                    match hour {
                         Some((v, f, r)) => {
                             day_hours.push((v, f, r));
                             if weekday && k < 24 && d.hours_in_day() == 24 {
                                 profile[k] += v as f64;
                                 profile_hours[k] += 1;
                             }
-                            hours.push(CountHour {
-                                date: d.date,
-                                volume: v as f64,
-                                follows,
-                            });
-                            follows = true;
                         }
-                        None => {
-                            follows = false;
-                            complete = false;
-                        }
+                        None => complete = false,
                     }
+                    run.push(Slot {
+                        date: d.date,
+                        hour: k,
+                        volume: hour.map(|x| x.0 as f64),
+                    });
                 }
-                prev = complete.then_some(d.date);
                 let total: u64 = day_hours.iter().map(|x| x.0).sum();
                 if complete && weekday && total > 0 {
                     let peak = day_hours
@@ -231,8 +274,19 @@ pub fn run(input: &ExpansionInput, params: &ExpansionParams) -> ExpansionOutput 
                 }
             }
             let group = &factors.groups[group_index];
-            let first = days.first().map(|d| d.date).expect("a year has days");
-            let last = days.last().map(|d| d.date).expect("a year has days");
+            let gapped = gaps::periods_of(&runs, group.weekday_profile.as_ref(), rule);
+            let not_expanded = |reason: String| Unexpanded {
+                station: s,
+                year: Some(cy),
+                dates: Some((first, last)),
+                counted_hours: gapped.counted_hours,
+                reason,
+            };
+            if gapped.periods.is_empty() {
+                out.unexpanded
+                    .push(not_expanded(diagnosis.reason(&gapped, rule, oneway)));
+                continue;
+            }
             // With no usable permanent counter anywhere, counts are published unfactored
             // (factor 1) with a wide factor CV, and the table says so.
             let unfactored;
@@ -243,9 +297,7 @@ pub fn run(input: &ExpansionInput, params: &ExpansionParams) -> ExpansionOutput 
                     &unfactored
                 }
                 None => {
-                    out.unexpanded.push((
-                        s,
-                        cy,
+                    out.unexpanded.push(not_expanded(
                         "no permanent counter gives factors for its group".into(),
                     ));
                     continue;
@@ -268,7 +320,7 @@ pub fn run(input: &ExpansionInput, params: &ExpansionParams) -> ExpansionOutput 
                 Measured::Axles => match group.acf.or_else(|| network_acf(factors)) {
                     Some((acf, cv)) => Measure::Axles { acf, cv },
                     None => {
-                        out.unexpanded.push((s, cy, "axle count, but no classifying counter gives an axle-correction factor".into()));
+                        out.unexpanded.push(not_expanded("axle count, but no classifying counter gives an axle-correction factor".into()));
                         continue;
                     }
                 },
@@ -278,8 +330,9 @@ pub fn run(input: &ExpansionInput, params: &ExpansionParams) -> ExpansionOutput 
                 factor: gfac.factor,
                 log_sd: (gfac.hi95 / gfac.lo95).ln() / (2.0 * super::Z95),
             };
+            let hours = 24 * gapped.periods.len();
             let count = ShortCount {
-                periods: super::periods(&hours),
+                periods: gapped.periods.clone(),
                 measure: measure_kind,
                 year: cy,
             };
@@ -288,7 +341,7 @@ pub fn run(input: &ExpansionInput, params: &ExpansionParams) -> ExpansionOutput 
                 Ok(mut e) => {
                     let c = params
                         .interval_scale
-                        .unwrap_or_else(|| calibration.scale_for(hours.len() as u32));
+                        .unwrap_or_else(|| calibration.scale_for(hours as u32));
                     e.log_sd *= c;
                     let (hs, sus, cus) = if classified && heavy_days.1 > 0.0 {
                         let h = (heavy_days.0 / heavy_days.1).clamp(0.0, 1.0);
@@ -303,7 +356,10 @@ pub fn run(input: &ExpansionInput, params: &ExpansionParams) -> ExpansionOutput 
                         year: cy,
                         first,
                         last,
-                        hours: hours.len(),
+                        hours,
+                        filled_hours: gapped.filled_hours,
+                        filled_from_own_days: gapped.filled_from_own_days,
+                        counted_hours: gapped.counted_hours,
                         measure: if matches!(measure, Measured::Axles) {
                             "axles"
                         } else {
@@ -322,7 +378,7 @@ pub fn run(input: &ExpansionInput, params: &ExpansionParams) -> ExpansionOutput 
                         peak_days: peak_shares.len(),
                     });
                 }
-                Err(e) => out.unexpanded.push((s, cy, e.to_string())),
+                Err(e) => out.unexpanded.push(not_expanded(e.to_string())),
             }
         }
     }
@@ -347,6 +403,66 @@ pub fn run(input: &ExpansionInput, params: &ExpansionParams) -> ExpansionOutput 
         }
     }
     out
+}
+
+/// What went on in a count, to say why it gave no 24-hour period.
+#[derive(Debug, Default)]
+struct Diagnosis {
+    /// Direction-days with data that quality control rejected.
+    rejected: usize,
+    /// Days with one direction only (no `both`) on a two-way segment.
+    one_direction_days: usize,
+}
+
+impl Diagnosis {
+    fn look_at(
+        &mut self,
+        d: &crate::model::DayCounts,
+        oneway: bool,
+        excl: &dyn Fn(Direction) -> bool,
+    ) {
+        self.rejected += Direction::ALL
+            .iter()
+            .filter(|&&x| d.dir(x).is_some() && excl(x))
+            .count();
+        let has = |x: Direction| d.dir(x).is_some();
+        if !oneway && !has(Direction::Both) && has(Direction::Fwd) != has(Direction::Rev) {
+            self.one_direction_days += 1;
+        }
+    }
+
+    fn reason(&self, g: &gaps::GapOutcome, rule: GapRule, oneway: bool) -> String {
+        let qc = if self.rejected > 0 {
+            format!(
+                "; quality control rejected {} direction-day(s), see qc_log.csv",
+                self.rejected
+            )
+        } else {
+            String::new()
+        };
+        if g.counted_hours == 0 {
+            if self.one_direction_days > 0 && !oneway {
+                return format!("only one direction counted on a two-way segment{qc}");
+            }
+            if self.rejected > 0 {
+                return format!(
+                    "quality control rejected {} direction-day(s), see qc_log.csv; no two-way hour left",
+                    self.rejected
+                );
+            }
+            return "no usable hour in the count".into();
+        }
+        if g.longest_run >= 24 {
+            return format!(
+                "no 24-hour period with at most {} filled hours ({} hours counted){qc}",
+                rule.max_filled_per_period, g.counted_hours
+            );
+        }
+        format!(
+            "no 24 consecutive usable hours: {} hours counted, longest run {} h after filling gaps of at most {} h{qc}",
+            g.counted_hours, g.longest_run, rule.max_gap_hours
+        )
+    }
 }
 
 fn mean(v: &[f64]) -> Option<f64> {

@@ -39,11 +39,13 @@ pub fn calibration_table(cal: &Calibration) -> Table {
     t
 }
 
-/// `short_counts.csv`: every expanded short count.
+/// `short_counts.csv`: every short count, expanded (`status` = `expanded`) or not
+/// (`not_expanded`, with empty AADT cells and the `reason`); a short station without any
+/// count has one `not_expanded` row with an empty year.
 pub fn short_counts(data: &StudyData, exp: &ExpansionOutput) -> Table {
     let mut t = Table::new(
         "short_counts",
-        "Short counts expanded to AADT of the study year",
+        "Short counts expanded to AADT of the study year, or the reason they were not",
         vec![
             col("station_id", "", Format::Text),
             col("segment_id", "", Format::Text),
@@ -51,6 +53,8 @@ pub fn short_counts(data: &StudyData, exp: &ExpansionOutput) -> Table {
             col("first_date", "", Format::Text),
             col("last_date", "", Format::Text),
             col("hours", "h", Format::Integer),
+            col("counted_hours", "h", Format::Integer),
+            col("filled_hours", "h", Format::Integer),
             col("periods_24h", "", Format::Integer),
             col("measure", "", Format::Text),
             col("classified", "", Format::Text),
@@ -59,6 +63,7 @@ pub fn short_counts(data: &StudyData, exp: &ExpansionOutput) -> Table {
             col("aadt_hi95", "veh/day", Format::Integer),
             col("heavy_share", "share", Format::Share),
             col("status", "", Format::Text),
+            col("reason", "", Format::Text),
         ],
     );
     for c in &exp.counts {
@@ -70,6 +75,8 @@ pub fn short_counts(data: &StudyData, exp: &ExpansionOutput) -> Table {
             Cell::from(c.first.to_string()),
             Cell::from(c.last.to_string()),
             Cell::from(c.hours),
+            Cell::from(c.counted_hours),
+            Cell::from(c.filled_hours),
             Cell::from(c.expanded.days),
             Cell::from(c.measure),
             Cell::from(if c.classified { "yes" } else { "no" }),
@@ -78,17 +85,23 @@ pub fn short_counts(data: &StudyData, exp: &ExpansionOutput) -> Table {
             Cell::from(hi),
             opt(c.heavy_share),
             Cell::from("expanded"),
+            Cell::Empty,
         ]);
     }
-    for (s, y, why) in &exp.unexpanded {
-        let st = &data.stations.stations[*s];
+    for u in &exp.unexpanded {
+        let st = &data.stations.stations[u.station];
         let mut row = vec![
             Cell::from(st.id.as_str()),
             Cell::from(st.segment_id.as_str()),
-            Cell::from(*y),
+            u.year.map_or(Cell::Empty, Cell::from),
+            u.dates.map_or(Cell::Empty, |d| Cell::from(d.0.to_string())),
+            u.dates.map_or(Cell::Empty, |d| Cell::from(d.1.to_string())),
+            Cell::Empty,
+            Cell::from(u.counted_hours),
         ];
-        row.extend(std::iter::repeat_n(Cell::Empty, 10));
-        row.push(Cell::from(format!("not expanded: {why}")));
+        row.extend(std::iter::repeat_n(Cell::Empty, 8));
+        row.push(Cell::from("not_expanded"));
+        row.push(Cell::from(u.reason.as_str()));
         t.push(row);
     }
     t
