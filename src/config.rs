@@ -286,7 +286,7 @@ mod tests {
                 optional.contains(&(table.clone(), key.clone())),
                 "README documents [{table}] {key} with a default, but the settings have no such key"
             );
-            let accepted = ["2025", "1.0", "true", "\"x\""].iter().any(|v| {
+            let accepted = ["2025", "1.0", "true", "\"UTC\""].iter().any(|v| {
                 let text = if table.is_empty() {
                     format!("{key} = {v}")
                 } else {
