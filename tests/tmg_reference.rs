@@ -58,6 +58,19 @@ fn group_of_one(f: &StationFactors) -> GroupFactors {
     }
 }
 
+/// Cuts `hours` into periods, expects two, and expands them to the §1.5 AADT (exact recovery).
+fn assert_recovers_the_aadt(hours: &[CountHour], g: &GroupFactors) {
+    let count = ShortCount {
+        periods: periods(hours),
+        measure: Measure::Vehicles,
+        year: 2023,
+    };
+    assert_eq!(count.periods.len(), 2);
+    let e = expand(&count, g, Growth::NONE, &ExpansionParams::default()).unwrap();
+    assert_relative_eq!(e.aadt, 64_000.0 / 7.0, max_relative = 1e-9);
+    assert_eq!(e.days, 2);
+}
+
 /// references §2.4: F(Tue, Jul) = 0.7619 and a 48-hour Tue–Wed July count of 12,000 per day
 /// expands to 9142.857 (exact recovery), the same as MF × DF = 0.8333 × 0.9143.
 #[test]
@@ -78,15 +91,7 @@ fn a_48_hour_july_count_expands_to_the_published_aadt() {
             })
         })
         .collect();
-    let count = ShortCount {
-        periods: periods(&hours),
-        measure: Measure::Vehicles,
-        year: 2023,
-    };
-    assert_eq!(count.periods.len(), 2);
-    let e = expand(&count, &g, Growth::NONE, &ExpansionParams::default()).unwrap();
-    assert_relative_eq!(e.aadt, 64_000.0 / 7.0, max_relative = 1e-9);
-    assert_eq!(e.days, 2);
+    assert_recovers_the_aadt(&hours, &g);
 }
 
 /// A count from Friday noon to Sunday noon: each 24-hour period straddles two days, and each
@@ -108,13 +113,5 @@ fn a_count_started_at_noon_straddles_days_and_recovers_the_aadt() {
             });
         }
     }
-    let count = ShortCount {
-        periods: periods(&hours),
-        measure: Measure::Vehicles,
-        year: 2023,
-    };
-    assert_eq!(count.periods.len(), 2);
-    let e = expand(&count, &g, Growth::NONE, &ExpansionParams::default()).unwrap();
-    assert_relative_eq!(e.aadt, 64_000.0 / 7.0, max_relative = 1e-9);
-    assert_eq!(e.days, 2);
+    assert_recovers_the_aadt(&hours, &g);
 }
