@@ -13,8 +13,9 @@ use crate::demo::DemoSize;
 /// uncounted segments, and writes AADT with a 95 % interval, class shares and design-hour
 /// figures for every segment.
 ///
-/// Exit codes: 0 done and every input row used; 1 done with some rows rejected (see
-/// rejected_rows.csv); 2 could not run.
+/// Exit codes: 0 done (rejected rows, if any, listed in rejected_rows.csv and within
+/// max_rejected_share); 1 done, but an alarm fired (data loss, no usable permanent counter);
+/// 2 could not run, nothing written.
 #[derive(Debug, Parser)]
 #[command(name = "roadtally", version, about, long_about)]
 pub struct Cli {

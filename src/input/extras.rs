@@ -4,7 +4,7 @@ use std::path::Path;
 
 use chrono::NaiveDate;
 
-use super::csvfile::{cell, parse_count, show, CsvFile};
+use super::csvfile::{cell, parse_count, show, CsvFile, Record};
 use super::error::InputError;
 use super::network::parse_number;
 use crate::model::FileSummary;
@@ -53,7 +53,7 @@ pub fn read_history(
     );
     let mut out = Vec::new();
     let mut summary = FileSummary::new(HISTORY_FILE);
-    let mut rec = csv::ByteRecord::new();
+    let mut rec = Record::new();
     while let Some(line) = f.next_row(&mut rec, rejects, &mut summary)? {
         summary.rows += 1;
         let parsed = (|| {
@@ -114,7 +114,7 @@ pub fn read_toll(
     let c_billed = f.require("billed_vehicles")?;
     let mut out = Vec::new();
     let mut summary = FileSummary::new(TOLL_FILE);
-    let mut rec = csv::ByteRecord::new();
+    let mut rec = Record::new();
     while let Some(line) = f.next_row(&mut rec, rejects, &mut summary)? {
         summary.rows += 1;
         let raw = |c: usize| rec.get(c).map(show).unwrap_or_default();
@@ -191,7 +191,7 @@ pub fn read_group_assignment(
     let c_area = f.optional("area");
     let mut out = Vec::new();
     let mut summary = FileSummary::new(ASSIGNMENT_FILE);
-    let mut rec = csv::ByteRecord::new();
+    let mut rec = Record::new();
     while let Some(line) = f.next_row(&mut rec, rejects, &mut summary)? {
         summary.rows += 1;
         let get = |c: Option<usize>| c.and_then(|c| cell(&rec, c));

@@ -3,7 +3,7 @@
 use std::collections::HashMap;
 use std::path::Path;
 
-use super::csvfile::{cell, show, CsvFile};
+use super::csvfile::{cell, show, CsvFile, Record};
 use super::error::InputError;
 use crate::model::FileSummary;
 use crate::model::RejectedRow;
@@ -49,7 +49,7 @@ fn read_nodes(
     let mut f = CsvFile::open(&root.join(NODES_FILE), NODES_FILE)?;
     let (c_id, c_lon, c_lat) = (f.require("node_id")?, f.require("lon")?, f.require("lat")?);
     let mut summary = FileSummary::new(NODES_FILE);
-    let mut rec = csv::ByteRecord::new();
+    let mut rec = Record::new();
     let name = f.name.clone();
     while let Some(line) = f.next_row(&mut rec, rejects, &mut summary)? {
         summary.rows += 1;
@@ -127,7 +127,7 @@ fn read_segments(
     let c_route = f.optional("route");
     let c_speed = f.optional("speed_limit_kph");
     let mut summary = FileSummary::new(SEGMENTS_FILE);
-    let mut rec = csv::ByteRecord::new();
+    let mut rec = Record::new();
     let name = f.name.clone();
     while let Some(line) = f.next_row(&mut rec, rejects, &mut summary)? {
         summary.rows += 1;
@@ -150,7 +150,7 @@ fn read_segments(
 type Fault = (&'static str, String, &'static str);
 
 fn parse_segment(
-    rec: &csv::ByteRecord,
+    rec: &Record,
     cols: &HashMap<&str, usize>,
     c_oneway: Option<usize>,
     c_route: Option<usize>,

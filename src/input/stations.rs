@@ -2,7 +2,7 @@
 
 use std::path::Path;
 
-use super::csvfile::{cell, show, CsvFile};
+use super::csvfile::{cell, show, CsvFile, Record};
 use super::error::InputError;
 use crate::model::FileSummary;
 use crate::model::RejectedRow;
@@ -26,7 +26,7 @@ pub fn read_stations(
     );
     let mut list = StationList::default();
     let mut summary = FileSummary::new(STATIONS_FILE);
-    let mut rec = csv::ByteRecord::new();
+    let mut rec = Record::new();
     let name = f.name.clone();
     while let Some(line) = f.next_row(&mut rec, rejects, &mut summary)? {
         summary.rows += 1;

@@ -32,7 +32,7 @@ mod parse;
 mod tests;
 
 use super::csvfile::{
-    cell, check_accounting, parse_count, quote_fault_parts, show, CsvFile, LineReader,
+    cell, check_accounting, parse_count, quote_fault_parts, show, CsvFile, LineReader, Record,
 };
 use super::error::InputError;
 use super::time::{parse_start, LocalStamp, Start};
@@ -192,7 +192,7 @@ type Outcome = Result<(), (Fault, Option<(usize, NaiveDate)>)>;
 /// Checks one record and folds it into `store`. A fold fault (overlap, offset) names the
 /// start cell's text as the file has it.
 fn process(
-    rec: &csv::ByteRecord,
+    rec: &Record,
     width: usize,
     cols: &Columns,
     ctx: &Ctx,
@@ -242,7 +242,7 @@ fn read_one(
     let width = f.width();
     let mut summary = FileSummary::new(name);
     let used_before = store.rows_used;
-    let mut rec = csv::ByteRecord::new();
+    let mut rec = Record::new();
     let mut cache: Option<(Vec<u8>, Result<usize, String>)> = None;
     let mut last_bytes = 0u64;
     while let Some(next) = f.next_record(&mut rec)? {

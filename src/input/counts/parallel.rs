@@ -161,7 +161,7 @@ pub(super) fn parse_range(
         1 << 20,
         std::io::Read::take(file, b - a),
     ));
-    let mut rec = csv::ByteRecord::new();
+    let mut rec = Record::new();
     let mut cache: Option<(Vec<u8>, Result<usize, String>)> = None;
     let mut rejects = Vec::new();
     let mut rows = 0u64;

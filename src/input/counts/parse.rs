@@ -74,7 +74,7 @@ pub(super) fn lookup_station(raw: &[u8], stations: &StationList) -> Result<usize
 }
 
 pub(super) fn parse_row(
-    rec: &csv::ByteRecord,
+    rec: &Record,
     cols: &Columns,
     net: &Network,
     stations: &StationList,
