@@ -13,6 +13,8 @@ use crate::input::{self, InputError, SETTINGS_FILE};
 use crate::qc::QcParams;
 use crate::spatial::stage::SpatialParams;
 
+mod suggest;
+
 /// Everything `study.toml` may say. Every key has a default; unknown keys are an error so a
 /// misspelt threshold is never silently ignored.
 #[derive(Debug, Clone, Serialize, Deserialize)]
@@ -67,8 +69,10 @@ impl Settings {
     pub fn parse(text: &str) -> Result<Settings, InputError> {
         let s: Settings = toml::from_str(text).map_err(|e| InputError::BadConfig {
             path: PathBuf::from(SETTINGS_FILE),
-            // The TOML message keeps its lines: line, column and a caret under the fault.
-            reason: e.to_string().trim_end().to_string(),
+            // An unknown key gets its closest valid key; any other TOML message keeps its
+            // lines: line, column and a caret under the fault.
+            reason: suggest::unknown_key_message(text, &e)
+                .unwrap_or_else(|| e.to_string().trim_end().to_string()),
         })?;
         s.validate()?;
         Ok(s)
@@ -192,6 +196,75 @@ mod tests {
         assert!(e.contains("study.toml") && e.contains("yaer"), "{e}");
         assert_eq!(Settings::parse("year = 2024").unwrap().year, Some(2024));
         assert_eq!(Settings::parse("").unwrap().year, None);
+    }
+
+    /// Every table and key of the settings type, misspelt by swapping two adjacent letters,
+    /// is rejected with the original offered; so is a misspelt table name.
+    #[test]
+    fn every_misspelt_key_gets_its_own_name_suggested() {
+        fn swap(k: &str) -> String {
+            let mut c: Vec<char> = k.chars().collect();
+            let i = (1..c.len())
+                .find(|&i| c[i] != c[i - 1])
+                .expect("two letters");
+            c.swap(i - 1, i);
+            c.into_iter().collect()
+        }
+        fn walk(v: &toml::Value, path: &[String], out: &mut Vec<(Vec<String>, String, bool)>) {
+            for (k, v) in v.as_table().unwrap() {
+                let table = matches!(v, toml::Value::Table(_));
+                out.push((path.to_vec(), k.clone(), table));
+                if table {
+                    let mut p = path.to_vec();
+                    p.push(k.clone());
+                    walk(v, &p, out);
+                }
+            }
+        }
+        let mut keys = Vec::new();
+        walk(
+            &toml::Value::try_from(Settings::default()).unwrap(),
+            &[],
+            &mut keys,
+        );
+        // Keys whose default is "none" are not in the serialised defaults.
+        keys.push((vec![], "year".into(), false));
+        keys.push((vec!["toll".into()], "light_per_vkm".into(), false));
+        let mut checked = 0;
+        for (path, key, is_table) in keys {
+            let bad = swap(&key);
+            let text = match (path.is_empty(), is_table) {
+                (_, true) => format!(
+                    "year = 2025\n[{}]\n",
+                    [path.clone(), vec![bad.clone()]].concat().join(".")
+                ),
+                (true, false) => format!("year = 2025\n{bad} = 1\n"),
+                (false, false) => format!("year = 2025\n[{}]\n{bad} = 1\n", path.join(".")),
+            };
+            let e = Settings::parse(&text).unwrap_err().to_string();
+            assert!(
+                e.starts_with("study.toml: line ")
+                    && e.contains(&format!("unknown key `{bad}`; did you mean `{key}`?")),
+                "{text}\n{e}"
+            );
+            checked += 1;
+        }
+        assert!(checked > 80, "{checked} keys");
+        let e = Settings::parse("[spatial]\nneighbors = 8\n")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("line 2, column 1: unknown key `neighbors`; did you mean `neighbours`?\n"),
+            "{e}"
+        );
+        assert!(e.contains("2 | neighbors = 8\n  | ^^^^^^^^^"), "{e}");
+        let e = Settings::parse("[spatial]\ncolour = 8\n")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("the keys here are `neighbours`, `route_reach_km`"),
+            "{e}"
+        );
     }
 
     /// Every key, not one: the printed defaults parse back to the same settings.

@@ -272,3 +272,121 @@ fn a_time_zone_reads_timestamps_without_offset() {
     assert_eq!(o.status.code(), Some(2));
     assert!(stderr(&o).contains("IANA"), "{}", stderr(&o));
 }
+
+/// Settings: a misspelt key, at the top level, in a table or as a table name, stops the run
+/// (exit 2, nothing written) naming study.toml, the line and column, the key and the valid
+/// key closest to it; any other TOML error keeps its lines and its caret (finding 6).
+#[test]
+fn misspelt_settings_are_named_with_the_closest_key() {
+    let s = Study::new(&format!("{HOURLY}{}\n", ten_days().join("\n")));
+    for (toml, needle) in [
+        (
+            "year = 2025\n[spatial]\nneighbors = 8\n",
+            "study.toml: line 3, column 1: unknown key `neighbors`; did you mean `neighbours`?",
+        ),
+        (
+            "[spatail]\nneighbours = 8\n",
+            "study.toml: line 1, column 2: unknown key `spatail`; did you mean `spatial`?",
+        ),
+        (
+            "max_rejected_shares = 0.1\n",
+            "unknown key `max_rejected_shares`; did you mean `max_rejected_share`?",
+        ),
+        (
+            "[continuous.sufficency]\nrequired_months = 1\n",
+            "line 1, column 13: unknown key `sufficency`; did you mean `sufficiency`?",
+        ),
+    ] {
+        s.write("study.toml", toml);
+        let out = s.run();
+        assert_eq!(out.status.code(), Some(2), "{toml}");
+        let err = stderr(&out);
+        assert!(err.contains(needle), "{toml}\n{err}");
+        assert!(!s.out().exists(), "nothing written for {toml}");
+    }
+    s.write("study.toml", "[spatial]\ncolour = 8\n");
+    let err = stderr(&s.run());
+    assert!(
+        err.contains("unknown key `colour`; the keys here are `neighbours`"),
+        "{err}"
+    );
+    s.write("study.toml", "year = 2025\nmax_rejected_share = \"lots\"\n");
+    let err = stderr(&s.check());
+    assert!(err.contains("line 2, column 22\n"), "{err}");
+    assert!(err.contains("2 | max_rejected_share = \"lots\"\n"), "{err}");
+}
+
+/// Finding 7: exit codes that tell cases apart. Six bad rows of 480 within a tolerance of
+/// 0.05 give 0; a count file whose every row is rejected beside a clean one gives 1 with
+/// the data-loss alarm naming it; a truncated gzip file gives 2 and no output. (The demo's
+/// own run giving 0 is checked in `publish::run_demo`.)
+#[test]
+fn exit_codes_tell_loss_from_tolerance_from_failure() {
+    // Both directions of C1 with a day-shaped volume, so every day is complete and clean.
+    let mut rows: Vec<String> = (1..=10)
+        .flat_map(|d| {
+            (0..24).flat_map(move |h| {
+                let v = 20 + 60 * (h >= 6 && h < 20) as u32 + h;
+                ["fwd", "rev"]
+                    .map(|dir| format!("C1,{dir},2025-06-{d:02}T{h:02}:00:00-04:00,60,{v}"))
+            })
+        })
+        .collect();
+    for k in 0..6 {
+        rows[40 * k + 1] = rows[40 * k + 1].replace(",60,", ",61,");
+    }
+    let s = Study::new(&format!("{HOURLY}{}\n", rows.join("\n")));
+    // One month of a permanent counter is its whole year here, so no foundation alarm.
+    s.write(
+        "study.toml",
+        "max_rejected_share = 0.05\n[continuous.sufficiency]\nrequired_months = 1\n",
+    );
+    let o = s.run();
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    assert!(!stderr(&o).contains("alarm"), "{}", stderr(&o));
+    assert_eq!(s.output_csv("rejected_rows.csv").len(), 7);
+    s.write(
+        "counts/lost.csv",
+        &format!("{HOURLY}C1,sideways,2025-06-20T00:00:00-04:00,60,1\n"),
+    );
+    let o = s.run();
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("alarm: counts/lost.csv lost 1 of its 1 rows"),
+        "{}",
+        stderr(&o)
+    );
+    s.remove("counts/lost.csv");
+    let mut gz = flate2::write::GzEncoder::new(Vec::new(), flate2::Compression::default());
+    std::io::Write::write_all(
+        &mut gz,
+        format!("{HOURLY}{}\n", ten_days().join("\n")).as_bytes(),
+    )
+    .unwrap();
+    let gz = gz.finish().unwrap();
+    s.write_bytes("counts/more.csv.gz", &gz[..gz.len() / 2]);
+    let o = s.run();
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(stderr(&o).contains("counts/more.csv.gz"), "{}", stderr(&o));
+}
+
+/// Finding 5: settings out of their range stop the run before any work (exit 2, nothing
+/// written), naming the setting and its range.
+#[test]
+fn out_of_range_settings_are_refused() {
+    let s = Study::new(&format!("{HOURLY}{}\n", ten_days().join("\n")));
+    for (toml, needle) in [
+        (
+            "[qc]\nmin_coverage = 7\n",
+            "[qc] min_coverage = 7 is a share",
+        ),
+        ("[spatial]\nneighbours = 0\n", "[spatial] neighbours = 0"),
+        ("max_rejected_share = -0.1\n", "max_rejected_share = -0.1"),
+    ] {
+        s.write("study.toml", toml);
+        let o = s.run();
+        assert_eq!(o.status.code(), Some(2), "{toml}");
+        assert!(stderr(&o).contains(needle), "{toml}\n{}", stderr(&o));
+        assert!(!s.out().exists());
+    }
+}
