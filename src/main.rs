@@ -63,11 +63,8 @@ fn dispatch(cli: &Cli) -> anyhow::Result<u8> {
             Ok(u8::from(!alarms.is_empty()))
         }
         Command::Run { study, out, year } => {
-            let config = Config::new(study, Some(out), *year, cli.quiet)?;
-            roadtally::output::place::check_target(study, out)?;
-            let results = pipeline::compute(&config)?;
-            let report = roadtally::output::write_all(&results, &config.settings, out)?;
-            let alarms = pipeline::alarms(&results, &config.settings);
+            let outcome = roadtally::output::run::run_study(study, out, *year, cli.quiet)?;
+            let report = &outcome.report;
             if !cli.quiet {
                 print!("{}", report.check);
                 let q = &report.qc;
@@ -98,10 +95,10 @@ fn dispatch(cli: &Cli) -> anyhow::Result<u8> {
                     out.display()
                 );
             }
-            for a in &alarms {
+            for a in &outcome.alarms {
                 eprintln!("alarm: {a}");
             }
-            Ok(u8::from(!alarms.is_empty()))
+            Ok(outcome.exit_code())
         }
         Command::Calibrate { study, out, year } => {
             let config = Config::new(study, None, *year, cli.quiet)?;

@@ -13,19 +13,38 @@ use crate::model::design_tables::{
 /// defaults (AASHTO 1993 lane distribution, truck factors, HCM defaults).
 pub fn read_design_tables(root: &Path) -> Result<DesignTables, InputError> {
     let mut t = DesignTables::default();
+    let rel = |e| study_relative(e, root);
     let p = root.join("factors/lane_distribution.csv");
     if p.exists() {
-        t.lanes = load_lane_distribution(&p)?;
+        t.lanes = load_lane_distribution(&p).map_err(rel)?;
     }
     let p = root.join("factors/truck_factors.csv");
     if p.exists() {
-        t.trucks = load_truck_factors(&p)?;
+        t.trucks = load_truck_factors(&p).map_err(rel)?;
     }
     let p = root.join("factors/hcm_defaults.csv");
     if p.exists() {
-        t.hcm = load_hcm_defaults(&p)?;
+        t.hcm = load_hcm_defaults(&p).map_err(rel)?;
     }
     Ok(t)
+}
+
+/// The error with its path relative to the study folder, as every other input message
+/// names its file.
+fn study_relative(e: InputError, root: &Path) -> InputError {
+    let rel = |p: std::path::PathBuf| p.strip_prefix(root).map(Path::to_path_buf).unwrap_or(p);
+    match e {
+        InputError::BadTable { path, line, reason } => InputError::BadTable {
+            path: rel(path),
+            line,
+            reason,
+        },
+        InputError::Unreadable { path, reason } => InputError::Unreadable {
+            path: rel(path),
+            reason,
+        },
+        other => other,
+    }
 }
 
 fn table_error(path: &Path, line: Option<u64>, reason: impl Into<String>) -> InputError {
@@ -160,5 +179,16 @@ mod tests {
             load_hcm_defaults(&dir.path().join("missing.csv")),
             Err(InputError::Unreadable { .. })
         ));
+    }
+
+    /// A study's own table that is bad is named relative to the study folder, as every
+    /// other input is (found by the mutation test: the message held the whole path).
+    #[test]
+    fn study_tables_are_named_relative_to_the_study() {
+        let dir = tempfile::tempdir().unwrap();
+        std::fs::create_dir(dir.path().join("factors")).unwrap();
+        std::fs::write(dir.path().join("factors/lane_distribution.csv"), "x\n1\n").unwrap();
+        let e = read_design_tables(dir.path()).unwrap_err().to_string();
+        assert!(e.starts_with("factors/lane_distribution.csv"), "{e}");
     }
 }

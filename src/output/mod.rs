@@ -7,6 +7,7 @@ pub mod geojson_out;
 pub mod place;
 pub mod publish;
 pub mod report;
+pub mod run;
 pub mod table;
 pub mod tables;
 pub mod write;
