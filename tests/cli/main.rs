@@ -2,6 +2,7 @@
 //!
 //! Each test builds its study in its own temporary folder (see [`Study`]).
 
+mod docs;
 mod generated;
 mod integrity;
 mod publish;
