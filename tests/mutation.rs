@@ -313,7 +313,7 @@ fn apply(files: &mut BTreeMap<String, Vec<u8>>, m: &Mutation) {
             *b = out;
         }
         Kind::HugeField => {
-            let c = if m.byte % 2 == 0 { b'x' } else { b'9' };
+            let c = if m.byte.is_multiple_of(2) { b'x' } else { b'9' };
             let size = 65_536 + m.n as usize * 1000;
             b.splice(pos..pos, std::iter::repeat_n(c, size));
         }
@@ -709,7 +709,7 @@ fn run_stream(cases: u32, key: [u8; 32]) -> (Tally, u64, Result<(), String>) {
     let result = runner.run(&proptest::collection::vec(mutation(), 1..=3), |plan| {
         let k = case.get();
         case.set(k + 1);
-        run_case(&plan, k % 100 == 0, &mut tally.borrow_mut())
+        run_case(&plan, k.is_multiple_of(100), &mut tally.borrow_mut())
     });
     (
         tally.into_inner(),

@@ -326,7 +326,7 @@ fn exit_codes_tell_loss_from_tolerance_from_failure() {
     let mut rows: Vec<String> = (1..=10)
         .flat_map(|d| {
             (0..24).flat_map(move |h| {
-                let v = 20 + 60 * (h >= 6 && h < 20) as u32 + h;
+                let v = 20 + 60 * u32::from((6..20).contains(&h)) + h;
                 ["fwd", "rev"]
                     .map(|dir| format!("C1,{dir},2025-06-{d:02}T{h:02}:00:00-04:00,60,{v}"))
             })
