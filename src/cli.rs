@@ -14,7 +14,8 @@ use crate::demo::DemoSize;
 /// figures for every segment.
 ///
 /// Exit codes: 0 done (rejected rows, if any, listed in rejected_rows.csv and within
-/// max_rejected_share); 1 done, but an alarm fired (data loss, no usable permanent counter);
+/// max_rejected_share); 1 done, but an alarm fired (data loss, no usable permanent counter,
+/// no count for any segment);
 /// 2 could not run, nothing written.
 #[derive(Debug, Parser)]
 #[command(name = "roadtally", version, about, long_about)]

@@ -9,6 +9,7 @@ use crate::config::Config;
 use crate::input::{self, InputError};
 use crate::model::{FileSummary, StudyData};
 use crate::progress::Progress;
+use crate::segments::Basis;
 
 /// Why a run could not finish (exit code 2).
 #[derive(Debug, thiserror::Error)]
@@ -155,8 +156,9 @@ pub struct Results {
 }
 
 /// The alarms of a finished run (exit code 1): data loss beyond `max_rejected_share` in a
-/// file, and a run without its foundation (no permanent counter gave statistics for the
-/// study year, so no factor comes from the study's own data).
+/// file, a run without its foundation (no permanent counter gave statistics for the study
+/// year, so no factor comes from the study's own data), and a run where no count reached
+/// any segment (every segment's figures are then empty).
 pub fn alarms(r: &Results, settings: &crate::config::Settings) -> Vec<String> {
     let mut out = check_report(&r.data, Some(r.year)).loss_alarms(settings.max_rejected_share);
     if r.continuous.stations.is_empty() {
@@ -168,6 +170,15 @@ pub fn alarms(r: &Results, settings: &crate::config::Settings) -> Vec<String> {
             "no permanent counter gave statistics for {} ({} skipped; first: {why}): every factor is a flat default and every interval rests on assumptions, not on the study's data",
             r.year,
             r.continuous.skipped.len()
+        ));
+    }
+    // No count reached any segment (found by the mutation test: studies whose few surviving
+    // count rows quality control rejected): the segment table has no figure at all.
+    if !r.segments.is_empty() && r.segments.iter().all(|s| s.basis == Basis::Estimated) {
+        out.push(format!(
+            "no count gives an AADT for any segment ({} permanent counter(s) without statistics, {} short count(s) not expanded): every segment's figures are empty",
+            r.continuous.skipped.len(),
+            r.expansion.unexpanded.len()
         ));
     }
     out

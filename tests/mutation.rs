@@ -651,7 +651,8 @@ fn run_case(plan: &[Mutation], cli: bool, tally: &mut Tally) -> Result<(), TestC
             )
         })?;
     }
-    // Every accepted segment has a row with a finite AADT inside its 95 % interval.
+    // Every accepted segment has a row with a finite AADT inside its 95 % interval, unless
+    // no count reached any segment: then every figure is empty and an alarm says so.
     let seg = csv::Reader::from_path(out.join("segment_statistics.csv"))
         .unwrap()
         .records()
@@ -664,7 +665,18 @@ fn run_case(plan: &[Mutation], cli: bool, tally: &mut Tally) -> Result<(), TestC
             outcome.report.check.segments
         )
     })?;
-    for r in &seg {
+    let nothing_counted = seg.iter().all(|r| &r[4] == "estimated");
+    let said = outcome
+        .alarms
+        .iter()
+        .any(|a| a.starts_with("no count gives an AADT for any segment"));
+    check(nothing_counted == said, || {
+        format!(
+            "no segment counted: {nothing_counted}, alarms {:?}",
+            outcome.alarms
+        )
+    })?;
+    for r in seg.iter().filter(|_| !nothing_counted) {
         let num = |i: usize| r[i].parse::<f64>().ok().filter(|v| v.is_finite());
         let (a, lo, hi) = (num(1), num(2), num(3));
         check(
@@ -773,4 +785,37 @@ fn mutated_studies_keep_the_contract() {
     );
     assert!(failures.is_empty(), "{}", failures.join("\n"));
     assert_eq!(total.by_code.iter().sum::<u64>(), runs);
+}
+
+/// Cases the property found, kept: a study whose surviving count rows all fall to quality
+/// control or to a rejected station published every segment with empty figures and only
+/// the data-loss alarms; the alarm that no count reached any segment is now raised too.
+#[test]
+fn found_cases_stay_fixed() {
+    let m = |target, kind, at, byte| Mutation {
+        target,
+        kind,
+        at,
+        n: 0,
+        byte,
+    };
+    let plans = [
+        // A node id swallowed by a huge field (two segments lost), the permanent counts
+        // truncated to one row.
+        vec![
+            m(4, Kind::HugeField, 679_382_850, 0),
+            m(0, Kind::Truncate, 1_123_775_063, 0),
+        ],
+        // A segment row's id damaged (its counter's rows rejected), the short count
+        // truncated to one row.
+        vec![
+            m(5, Kind::FlipByte, 2_983_881_709, 32),
+            m(2, Kind::Truncate, 489_569_740, 0),
+        ],
+    ];
+    for plan in &plans {
+        let mut tally = Tally::default();
+        run_case(plan, true, &mut tally).unwrap_or_else(|e| panic!("{plan:?}: {e}"));
+        assert_eq!(tally.by_code, [0, 1, 0], "{plan:?}");
+    }
 }
