@@ -45,7 +45,13 @@ pub struct CheckReport {
     pub count_rows_used: u64,
     /// The study year.
     pub year: Option<i32>,
+    /// The first [`SHOWN_REJECTS`] rejected rows, for the terminal (all of them go to
+    /// rejected_rows.csv in a run).
+    pub first_rejected: Vec<crate::model::RejectedRow>,
 }
+
+/// Rejected rows `check` prints one by one.
+pub const SHOWN_REJECTS: usize = 20;
 
 impl CheckReport {
     /// Rows read over every file.
@@ -107,6 +113,7 @@ pub fn check_report(data: &StudyData, year: Option<i32>) -> CheckReport {
         station_days: data.counts.days.iter().map(|d| d.len()).sum(),
         count_rows_used: data.counts.rows_used,
         year,
+        first_rejected: data.rejected.iter().take(SHOWN_REJECTS).cloned().collect(),
     }
 }
 
@@ -177,10 +184,7 @@ pub fn alarms(r: &Results, settings: &crate::config::Settings) -> Vec<String> {
 pub fn compute(config: &Config) -> Result<Results, PipelineError> {
     let progress = Progress::new(config.quiet);
     let settings = &config.settings;
-    let mut data =
-        input::read_study_with(&config.study, &config.settings.read_options(), &progress)?;
-    let assignment =
-        input::extras::read_group_assignment(&data.root, &mut data.rejected, &mut data.files)?;
+    let data = input::read_study_with(&config.study, &config.settings.read_options(), &progress)?;
     let year = study_year(config, &data).ok_or(PipelineError::NoYear)?;
     let qc_input = crate::qc::QcInput {
         counts: &data.counts,
@@ -203,7 +207,7 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
         history: &data.history,
         continuous: &continuous,
         year,
-        assignment: assignment.as_deref(),
+        assignment: data.assignment.as_deref(),
     };
     let factors = crate::factors::stage::run(&factor_input, &settings.factors)?;
     let calibration = calibrate(
@@ -247,12 +251,11 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
             factors: &factors,
         })
     });
-    let tables = input::read_design_tables(&data.root)?;
     let design_input = crate::design::stage::DesignInput {
         network: &data.network,
         segments: &segments,
         factors: &factors,
-        tables: &tables,
+        tables: &data.design_tables,
     };
     let design = crate::design::stage::run(&design_input, &settings.design);
     let totals = crate::totals::network_totals(&data.network, &segments);
@@ -331,6 +334,27 @@ impl fmt::Display for CheckReport {
             writeln!(f, "\nrejected rows by reason:")?;
             for (why, n) in &self.rejected_by_reason {
                 writeln!(f, "  {n:>8}  {why}")?;
+            }
+            writeln!(
+                f,
+                "\nrejected rows{} (file:line, column, value: reason):",
+                if self.rows_rejected() > self.first_rejected.len() as u64 {
+                    format!(", the first {}", self.first_rejected.len())
+                } else {
+                    String::new()
+                }
+            )?;
+            for r in &self.first_rejected {
+                let col = if r.column.is_empty() {
+                    "whole row".to_string()
+                } else {
+                    format!("column {}", r.column)
+                };
+                writeln!(
+                    f,
+                    "  {}:{}, {col}, {:?}: {}",
+                    r.file, r.line, r.value, r.reason
+                )?;
             }
         }
         writeln!(

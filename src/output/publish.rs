@@ -304,7 +304,7 @@ pub fn manifest(
     for f in &data.files {
         inputs.push(serde_json::json!({
             "file": f.file,
-            "sha256": crate::input::sha256_of(&data.root, &f.file),
+            "sha256": f.sha256,
             "rows": f.rows,
             "rejected": f.rejected,
         }));
@@ -314,6 +314,10 @@ pub fn manifest(
         "version": env!("CARGO_PKG_VERSION"),
         "study_year": year,
         "settings": settings,
+        "settings_file": data.settings_sha256.as_ref().map(|h| serde_json::json!({
+            "file": crate::input::SETTINGS_FILE,
+            "sha256": h,
+        })),
         "inputs": inputs,
         "outputs": outputs,
     });

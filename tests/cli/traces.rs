@@ -1,0 +1,162 @@
+//! Issue 17: `check` and `run` read the same files (`factors/` included), the manifest lists
+//! and hashes every file used, and failures leave a trace (diagnostics, alarms), never a
+//! blank cell.
+
+use super::*;
+
+fn text(b: &[u8]) -> String {
+    String::from_utf8_lossy(b).into_owned()
+}
+
+/// Runs `roadtally <args> <study>` and returns (exit code, stdout, stderr).
+fn roadtally_on(args: &[&str], study: &Path) -> (Option<i32>, String, String) {
+    let o = roadtally().args(args).arg(study).output().expect("runs");
+    (o.status.code(), text(&o.stdout), text(&o.stderr))
+}
+
+fn sha256_hex(path: &Path) -> String {
+    use sha2::{Digest, Sha256};
+    let bytes = std::fs::read(path).unwrap();
+    Sha256::digest(bytes)
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect()
+}
+
+const ASSIGNMENT_HEADER: &str = "factor_group,route,functional_class,area\n";
+
+/// A bad row in `factors/group_assignment.csv` is named by `check` with file, line, column and
+/// reason, and raises the data-loss alarm (1 of 2 rows lost); `run` rejects the same row with the
+/// same reason. A missing required column stops both with exit 2 naming file and column.
+#[test]
+fn check_catches_a_broken_group_assignment() {
+    let (dir, study) = demo_copy();
+    let file = study.join("factors/group_assignment.csv");
+    std::fs::create_dir_all(file.parent().unwrap()).unwrap();
+    std::fs::write(
+        &file,
+        format!("{ASSIGNMENT_HEADER}arterial_urban,,3,urban\narterial_urban,,9,urban\n"),
+    )
+    .unwrap();
+    let (code, out, err) = roadtally_on(&["check"], &study);
+    assert_eq!(code, Some(1), "{out}{err}");
+    assert!(
+        out.contains(
+            "factors/group_assignment.csv:3, column functional_class, \"9\": functional_class is not 1..7"
+        ),
+        "{out}"
+    );
+    assert!(
+        err.contains("alarm: factors/group_assignment.csv lost 1 of its 2 rows"),
+        "{err}"
+    );
+    let out_dir = dir.path().join("out");
+    let (code, _, err) = roadtally_on(
+        &["run", "--quiet", "--out", out_dir.to_str().unwrap()],
+        &study,
+    );
+    assert_eq!(code, Some(1), "{err}");
+    let rejected = std::fs::read_to_string(out_dir.join("rejected_rows.csv")).unwrap();
+    assert!(
+        rejected.contains("factors/group_assignment.csv,3,functional_class,9,functional_class is not 1..7"),
+        "{rejected}"
+    );
+    // Without its required column the table cannot be read at all: both commands stop.
+    std::fs::write(&file, "route,functional_class\nR1,3\n").unwrap();
+    let unused = dir.path().join("out2");
+    let run = ["run", "--quiet", "--out", unused.to_str().unwrap()];
+    for cmd in [&["check"][..], &run[..]] {
+        let (code, _, err) = roadtally_on(cmd, &study);
+        assert_eq!(code, Some(2), "{cmd:?}: {err}");
+        assert!(
+            err.contains("factors/group_assignment.csv") && err.contains("factor_group"),
+            "{cmd:?}: {err}"
+        );
+    }
+    assert!(!unused.exists());
+}
+
+/// A `factors/*.csv` the tool does not read (here a misspelt truck-factor table) is refused by
+/// both commands, so a study's table is never silently left unused.
+#[test]
+fn an_unknown_factors_file_is_refused() {
+    let (_dir, study) = demo_copy();
+    std::fs::create_dir_all(study.join("factors")).unwrap();
+    std::fs::copy(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("factors/truck_factors.csv"),
+        study.join("factors/truck_factor.csv"),
+    )
+    .unwrap();
+    let (code, _, err) = roadtally_on(&["check"], &study);
+    assert_eq!(code, Some(2), "{err}");
+    assert!(
+        err.contains("factors/truck_factor.csv") && err.contains("truck_factors.csv"),
+        "{err}"
+    );
+}
+
+/// The demo has no `factors/` folder, so the test gives its copy a truck-factor table and a
+/// group assignment: `check` lists both, and the run manifest lists every file read, both
+/// tables and study.toml included, each with the SHA-256 of its bytes (computed here with the
+/// sha2 crate, independently of the tool's own reading).
+#[test]
+fn the_manifest_lists_the_factors_files_with_their_hashes() {
+    let (dir, study) = demo_copy();
+    std::fs::create_dir_all(study.join("factors")).unwrap();
+    std::fs::copy(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("factors/truck_factors.csv"),
+        study.join("factors/truck_factors.csv"),
+    )
+    .unwrap();
+    std::fs::write(
+        study.join("factors/group_assignment.csv"),
+        format!("{ASSIGNMENT_HEADER}arterial_urban,,3,urban\n"),
+    )
+    .unwrap();
+    let (code, out, err) = roadtally_on(&["check"], &study);
+    assert_eq!(code, Some(0), "{err}");
+    for f in ["factors/truck_factors.csv", "factors/group_assignment.csv"] {
+        assert!(out.contains(f), "check does not list {f}:\n{out}");
+    }
+    let out_dir = dir.path().join("out");
+    let (code, _, err) = roadtally_on(
+        &["run", "--quiet", "--out", out_dir.to_str().unwrap()],
+        &study,
+    );
+    assert_eq!(code, Some(0), "{err}");
+    let manifest: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out_dir.join("run_manifest.json")).unwrap())
+            .unwrap();
+    let inputs = manifest["inputs"].as_array().unwrap();
+    let listed: Vec<&str> = inputs.iter().map(|i| i["file"].as_str().unwrap()).collect();
+    let mut expected = vec![
+        "network/nodes.csv",
+        "network/segments.csv",
+        "stations.csv",
+        "history.csv",
+        "toll.csv",
+        "factors/group_assignment.csv",
+        "factors/truck_factors.csv",
+    ];
+    for e in std::fs::read_dir(study.join("counts")).unwrap() {
+        let name = e.unwrap().file_name().to_string_lossy().into_owned();
+        expected.push(Box::leak(format!("counts/{name}").into_boxed_str()));
+    }
+    let mut sorted = listed.clone();
+    sorted.sort();
+    expected.sort();
+    assert_eq!(sorted, expected, "manifest inputs");
+    for i in inputs {
+        let f = i["file"].as_str().unwrap();
+        assert_eq!(
+            i["sha256"].as_str().unwrap(),
+            sha256_hex(&study.join(f)),
+            "checksum of {f}"
+        );
+    }
+    assert_eq!(manifest["settings_file"]["file"], "study.toml");
+    assert_eq!(
+        manifest["settings_file"]["sha256"].as_str().unwrap(),
+        sha256_hex(&study.join("study.toml"))
+    );
+}
