@@ -233,14 +233,17 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
         observations: &obs,
     };
     let spatial = crate::spatial::stage::run(&spatial_input, &settings.spatial)?;
-    let segments = crate::segments::assemble(&crate::segments::SegmentsInput {
-        network: &data.network,
-        stations: &data.stations,
-        continuous: &continuous,
-        factors: &factors,
-        expansion: &expansion,
-        spatial: &spatial,
-    });
+    let segments = crate::segments::assemble(
+        &crate::segments::SegmentsInput {
+            network: &data.network,
+            stations: &data.stations,
+            continuous: &continuous,
+            factors: &factors,
+            expansion: &expansion,
+            spatial: &spatial,
+        },
+        &settings.segments,
+    );
     let toll = data.toll.as_ref().map(|t| {
         crate::toll::stage::run(&crate::toll::stage::TollInput {
             network: &data.network,

@@ -5,10 +5,10 @@
 use std::path::{Path, PathBuf};
 
 use super::error::InputError;
-use crate::model::FileSummary;
 use crate::model::design_tables::{
     DesignTables, HcmDefaults, LaneDistribution, LoadEquivalency, TableError,
 };
+use crate::model::FileSummary;
 
 /// Relative names of the design tables a study may carry under `factors/`.
 pub const DESIGN_TABLE_FILES: [&str; 3] = [

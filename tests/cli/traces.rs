@@ -58,7 +58,9 @@ fn check_catches_a_broken_group_assignment() {
     assert_eq!(code, Some(1), "{err}");
     let rejected = std::fs::read_to_string(out_dir.join("rejected_rows.csv")).unwrap();
     assert!(
-        rejected.contains("factors/group_assignment.csv,3,functional_class,9,functional_class is not 1..7"),
+        rejected.contains(
+            "factors/group_assignment.csv,3,functional_class,9,functional_class is not 1..7"
+        ),
         "{rejected}"
     );
     // Without its required column the table cannot be read at all: both commands stop.
@@ -125,8 +127,7 @@ fn the_manifest_lists_the_factors_files_with_their_hashes() {
     );
     assert_eq!(code, Some(0), "{err}");
     let manifest: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(out_dir.join("run_manifest.json")).unwrap())
-            .unwrap();
+        serde_json::from_slice(&std::fs::read(out_dir.join("run_manifest.json")).unwrap()).unwrap();
     let inputs = manifest["inputs"].as_array().unwrap();
     let listed: Vec<&str> = inputs.iter().map(|i| i["file"].as_str().unwrap()).collect();
     let mut expected = vec![
@@ -158,5 +159,48 @@ fn the_manifest_lists_the_factors_files_with_their_hashes() {
     assert_eq!(
         manifest["settings_file"]["sha256"].as_str().unwrap(),
         sha256_hex(&study.join("study.toml"))
+    );
+}
+
+/// The settings reach their stages: with `full_model_min_counts` above the demo's counted
+/// segments the drift regression is the reduced model (terms `arterial`, `collector_local`
+/// instead of `class_2`..`class_7`), and `short_count_share_cv = 0` gives every share measured
+/// by a short classified count a zero-width interval.
+#[test]
+fn model_switch_and_share_cv_are_settings() {
+    let (dir, study) = demo_copy();
+    let toml = std::fs::read_to_string(study.join("study.toml")).unwrap();
+    std::fs::write(
+        study.join("study.toml"),
+        format!("{toml}\n[spatial]\nfull_model_min_counts = 100000\n[segments]\nshort_count_share_cv = 0.0\n"),
+    )
+    .unwrap();
+    let out = dir.path().join("out");
+    let (code, _, err) = roadtally_on(&["run", "--quiet", "--out", out.to_str().unwrap()], &study);
+    assert!(code.is_some_and(|c| c <= 1), "{err}");
+    let model = std::fs::read_to_string(out.join("spatial_model.csv")).unwrap();
+    assert!(
+        model.contains("collector_local") && !model.contains("class_2"),
+        "{model}"
+    );
+    let mut r = csv::Reader::from_path(out.join("segment_statistics.csv")).unwrap();
+    let h = r.headers().unwrap().clone();
+    let at = |n: &str| h.iter().position(|c| c == n).unwrap();
+    let (hs, lo, src) = (
+        at("heavy_share"),
+        at("heavy_share_lo95"),
+        at("heavy_source"),
+    );
+    let mut seen = 0;
+    for rec in r.records() {
+        let rec = rec.unwrap();
+        if &rec[src] == "short_count" {
+            seen += 1;
+            assert_eq!(&rec[hs], &rec[lo], "{rec:?}");
+        }
+    }
+    assert!(
+        seen > 0,
+        "no segment with a classified short count in the demo"
     );
 }
