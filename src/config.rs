@@ -23,6 +23,13 @@ pub struct Settings {
     /// Largest share (0..1) of a file's rows that may be rejected before the run raises a
     /// data-loss alarm (exit code 1). Default 0.01.
     pub max_rejected_share: f64,
+    /// Largest share (0..1) of a stage's units (segments, short counts) that may fall back
+    /// from the stage's method to a cruder substitute (a default factor group, unfactored
+    /// counts, regression instead of kriging, a design input without its figures) before the
+    /// run raises a fallback alarm (exit code 1) naming the stage. Default 0.10: a tenth of the
+    /// network resting on substitutes is material for a published statistic (project choice,
+    /// in line with the ±10 % precision target of TMG factor groups).
+    pub max_fallback_share: f64,
     /// IANA time-zone name (e.g. `America/New_York`) for count timestamps written without a
     /// UTC offset, as many logger exports are. A timestamp with an offset keeps its own. A
     /// clock time the zone skips (spring forward) is rejected; one it repeats (fall back) is
@@ -52,6 +59,7 @@ impl Default for Settings {
         Settings {
             year: None,
             max_rejected_share: 0.01,
+            max_fallback_share: 0.10,
             time_zone: None,
             qc: QcParams::default(),
             continuous: ContinuousParams::default(),
@@ -94,6 +102,12 @@ impl Settings {
         if !(0.0..=1.0).contains(&m) {
             return Err(bad(format!(
                 "max_rejected_share = {m} is a share of a file's rows: it must be in [0, 1]"
+            )));
+        }
+        let m = self.max_fallback_share;
+        if !(0.0..=1.0).contains(&m) {
+            return Err(bad(format!(
+                "max_fallback_share = {m} is a share of a stage's segments or counts: it must be in [0, 1]"
             )));
         }
         let c = self.qc.min_coverage;

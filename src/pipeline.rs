@@ -155,17 +155,50 @@ pub struct Results {
     pub segments: Vec<crate::segments::SegmentRow>,
     /// Toll reconciliation, when the study has a toll.csv.
     pub toll: Option<Vec<crate::toll::stage::TollResult>>,
-    /// Design inputs per segment.
-    pub design: Vec<crate::design::stage::DesignRow>,
+    /// Design inputs per segment, with the stage's diagnostics.
+    pub design: crate::design::stage::DesignOutput,
     /// Network totals.
     pub totals: Vec<crate::totals::Total>,
 }
 
+impl Results {
+    /// Every stage's diagnostics, in stage order.
+    pub fn diagnostics(&self) -> [&crate::model::StageDiagnostics; 4] {
+        [
+            &self.factors.diagnostics,
+            &self.expansion.diagnostics,
+            &self.spatial.diagnostics,
+            &self.design.diagnostics,
+        ]
+    }
+}
+
 /// The alarms of a finished run (exit code 1): data loss beyond `max_rejected_share` in a
-/// file, and a run without its foundation (no permanent counter gave statistics for the
-/// study year, so no factor comes from the study's own data).
+/// file; a run without its foundation (no permanent counter gave statistics for the study
+/// year, so no factor comes from the study's own data); a stage that fell back from its
+/// method for more than `max_fallback_share` of its units.
 pub fn alarms(r: &Results, settings: &crate::config::Settings) -> Vec<String> {
     let mut out = check_report(&r.data, Some(r.year)).loss_alarms(settings.max_rejected_share);
+    for d in r.diagnostics() {
+        if d.fallback_units > 0 && d.fallback_share() > settings.max_fallback_share {
+            let kinds: Vec<String> = d
+                .items
+                .iter()
+                .filter(|i| i.fallback)
+                .map(|i| format!("{} {}", i.count, i.kind))
+                .collect();
+            out.push(format!(
+                "stage {}: {} of {} {} ({:.1} %) fell back from its method, more than max_fallback_share = {:.1} % ({}): see diagnostics.csv",
+                d.stage,
+                d.fallback_units,
+                d.total,
+                d.unit,
+                100.0 * d.fallback_share(),
+                100.0 * settings.max_fallback_share,
+                kinds.join("; ")
+            ));
+        }
+    }
     if r.continuous.stations.is_empty() {
         let why = r.continuous.skipped.first().map_or(
             "the study has no permanent counter".to_string(),

@@ -50,7 +50,7 @@ pub use crate::model::design_tables::{
 use thiserror::Error;
 
 /// Errors of the design-input maths.
-#[derive(Debug, Error)]
+#[derive(Debug, Clone, PartialEq, Error)]
 pub enum DesignError {
     /// An input value is out of its domain.
     #[error("{name} = {value} is not valid: {expected}")]

@@ -37,7 +37,7 @@ use super::{
     empirical_variogram, fit_variogram, CovarianceModel, Kriger, KrigingData, KrigingParams,
     LogNormalEstimate, ModelKind, SpatialError, Target, VariogramFit, Z_95,
 };
-use crate::model::{Area, Network};
+use crate::model::{Area, Network, StageDiagnostics};
 
 /// Settings of the spatial stage (`[spatial]` in study.toml).
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
@@ -170,6 +170,9 @@ pub struct SpatialOutput {
     pub residual_var: f64,
     /// Leave-one-out folds.
     pub cv: Vec<CvPoint>,
+    /// Uncounted segments estimated, and those whose estimate fell back from kriging with
+    /// external drift (by fallback step).
+    pub diagnostics: StageDiagnostics,
 }
 
 /// Regression terms of a segment.
@@ -368,6 +371,22 @@ fn fit_model(
     }
 }
 
+/// Short name of a kriging fallback step, for the diagnostics.
+fn fallback_kind(f: &super::Fallback) -> &'static str {
+    match f {
+        super::Fallback::DroppedDriftTerms(_) => {
+            "kriging: drift term dropped from the local system"
+        }
+        super::Fallback::MergedCoincident { .. } => "kriging: coincident neighbours merged",
+        super::Fallback::OrdinaryKriging { .. } => {
+            "kriging: ordinary kriging (drift system failed)"
+        }
+        super::Fallback::InverseVarianceMean { .. } => {
+            "kriging: inverse-variance mean (kriging systems failed)"
+        }
+    }
+}
+
 fn fallback_text(p: &super::Prediction) -> String {
     p.fallbacks
         .iter()
@@ -393,6 +412,7 @@ pub fn run(input: &SpatialInput, params: &SpatialParams) -> Result<SpatialOutput
     let n_seg = net.segments.len();
     let mut out = SpatialOutput {
         estimates: vec![None; n_seg],
+        diagnostics: StageDiagnostics::new("spatial", "uncounted segments"),
         ..SpatialOutput::default()
     };
     if obs.len() < 3 {
@@ -405,6 +425,8 @@ pub fn run(input: &SpatialInput, params: &SpatialParams) -> Result<SpatialOutput
             let counted: Vec<usize> = obs.iter().map(|o| o.segment).collect();
             for (s, e) in out.estimates.iter_mut().enumerate() {
                 if !counted.contains(&s) {
+                    out.diagnostics
+                        .record([("mean of fewer than three counts", true)]);
                     *e = Some(SegmentEstimate {
                         aadt: Interval::from_log(m, v),
                         log_mean: m,
@@ -472,6 +494,14 @@ pub fn run(input: &SpatialInput, params: &SpatialParams) -> Result<SpatialOutput
         })
         .collect();
     for (&s, p) in targets.iter().zip(kriger.predict_many(&tgt)) {
+        match &p {
+            Ok(p) => out
+                .diagnostics
+                .record(p.fallbacks.iter().map(|f| (fallback_kind(f), true))),
+            Err(_) => out
+                .diagnostics
+                .record([("regression only: kriging could not solve", true)]),
+        }
         let est = match p {
             Ok(p) => SegmentEstimate {
                 aadt: Interval::from_log(p.value, p.variance_with_nugget),

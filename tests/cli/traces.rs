@@ -97,22 +97,29 @@ fn an_unknown_factors_file_is_refused() {
     );
 }
 
-/// The demo has no `factors/` folder, so the test gives its copy a truck-factor table and a
-/// group assignment: `check` lists both, and the run manifest lists every file read, both
-/// tables and study.toml included, each with the SHA-256 of its bytes (computed here with the
-/// sha2 crate, independently of the tool's own reading).
+/// The demo has no `factors/` folder, so the test gives its copy a truck-factor table and the
+/// group assignment a first run wrote (the documented way to edit it): `check` lists both, and
+/// the run manifest lists every file read, both tables and study.toml included, each with the
+/// SHA-256 of its bytes (computed here with the sha2 crate, independently of the tool's own
+/// reading).
 #[test]
 fn the_manifest_lists_the_factors_files_with_their_hashes() {
     let (dir, study) = demo_copy();
+    let first = dir.path().join("first");
+    let (code, _, err) = roadtally_on(
+        &["run", "--quiet", "--out", first.to_str().unwrap()],
+        &study,
+    );
+    assert_eq!(code, Some(0), "{err}");
     std::fs::create_dir_all(study.join("factors")).unwrap();
     std::fs::copy(
         Path::new(env!("CARGO_MANIFEST_DIR")).join("factors/truck_factors.csv"),
         study.join("factors/truck_factors.csv"),
     )
     .unwrap();
-    std::fs::write(
+    std::fs::copy(
+        first.join("factors/group_assignment.csv"),
         study.join("factors/group_assignment.csv"),
-        format!("{ASSIGNMENT_HEADER}arterial_urban,,3,urban\n"),
     )
     .unwrap();
     let (code, out, err) = roadtally_on(&["check"], &study);
@@ -203,4 +210,118 @@ fn model_switch_and_share_cv_are_settings() {
         seen > 0,
         "no segment with a classified short count in the demo"
     );
+}
+
+fn csv_table(path: &Path) -> Vec<std::collections::HashMap<String, String>> {
+    let mut r = csv::Reader::from_path(path).expect("csv");
+    let h = r.headers().unwrap().clone();
+    r.records()
+        .map(|rec| {
+            let rec = rec.unwrap();
+            h.iter()
+                .zip(rec.iter())
+                .map(|(k, v)| (k.to_string(), v.to_string()))
+                .collect()
+        })
+        .collect()
+}
+
+/// Fallback alarm. The demo at its defaults stays below `max_fallback_share` in every stage
+/// (exit 0). With the share lowered to 0.02, the expansion stage's fallbacks (short counts not
+/// expanded) raise an exit-1 alarm naming the stage; `diagnostics.csv` counts exactly the
+/// `not_expanded` rows of `short_counts.csv` (an independent table), and the manifest carries
+/// the alarm as the terminal printed it.
+#[test]
+fn a_stage_that_falls_back_too_often_raises_an_alarm_naming_it() {
+    let (dir, study) = demo_copy();
+    let out = dir.path().join("out");
+    let run =
+        |out: &Path| roadtally_on(&["run", "--quiet", "--out", out.to_str().unwrap()], &study);
+    let (code, _, err) = run(&out);
+    assert_eq!(code, Some(0), "{err}");
+    for row in csv_table(&out.join("diagnostics.csv")) {
+        let share: f64 = row["fallback_share"].parse().unwrap();
+        assert!(share <= 0.10, "{row:?}");
+    }
+    let toml = std::fs::read_to_string(study.join("study.toml")).unwrap();
+    std::fs::write(
+        study.join("study.toml"),
+        format!("max_fallback_share = 0.02\n{toml}"),
+    )
+    .unwrap();
+    let out = dir.path().join("out2");
+    let (code, _, err) = run(&out);
+    assert_eq!(code, Some(1), "{err}");
+    let alarm = err
+        .lines()
+        .find(|l| l.starts_with("alarm: stage expansion:"))
+        .unwrap_or_else(|| panic!("no expansion alarm in {err}"));
+    let not_expanded = csv_table(&out.join("short_counts.csv"))
+        .iter()
+        .filter(|r| r["status"] == "not_expanded")
+        .count();
+    assert!(not_expanded > 0, "the demo has no unexpanded short count");
+    let diag = csv_table(&out.join("diagnostics.csv"));
+    let row = diag
+        .iter()
+        .find(|r| r["stage"] == "expansion" && r["kind"].starts_with("not expanded"))
+        .expect("expansion row");
+    assert_eq!(row["count"], not_expanded.to_string());
+    let manifest: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.join("run_manifest.json")).unwrap()).unwrap();
+    let alarms: Vec<&str> = manifest["alarms"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|a| a.as_str().unwrap())
+        .collect();
+    assert!(
+        alarms.contains(&alarm.trim_start_matches("alarm: ")),
+        "{alarms:?}"
+    );
+}
+
+/// A study year without counts leaves segments without K, D or heavy share: the design stage
+/// says why on every such row of `design_inputs.csv` (never a silently blank cell), counts
+/// them in `diagnostics.csv` and in the run summary, and the expansion stage's fallback alarm
+/// (every count unfactored) names the stage.
+#[test]
+fn design_gaps_carry_their_reason_and_are_counted() {
+    let (dir, study) = demo_copy();
+    let out = dir.path().join("out");
+    let (code, summary, err) = roadtally_on(
+        &["run", "--year", "2030", "--out", out.to_str().unwrap()],
+        &study,
+    );
+    assert_eq!(code, Some(1), "{err}");
+    assert!(
+        err.contains("alarm: stage expansion:") && err.contains("unfactored"),
+        "{err}"
+    );
+    let rows = csv_table(&out.join("design_inputs.csv"));
+    let mut blank = 0;
+    for r in &rows {
+        if r["heavy_aadt"].is_empty() {
+            blank += 1;
+            assert!(r["pavement_note"].contains("heavy share"), "{r:?}");
+        } else {
+            assert!(r["pavement_note"].is_empty(), "{r:?}");
+        }
+        if r["ddhv"].is_empty() {
+            assert!(!r["capacity_note"].is_empty(), "{r:?}");
+        }
+    }
+    assert!(blank > 0);
+    assert!(
+        summary.contains(&format!(
+            "design inputs: {blank} segments without pavement inputs"
+        )),
+        "{summary}"
+    );
+    let diag = csv_table(&out.join("diagnostics.csv"));
+    let row = diag
+        .iter()
+        .find(|r| r["stage"] == "design" && r["kind"] == "pavement: no heavy share")
+        .expect("design row");
+    assert_eq!(row["count"], blank.to_string());
 }
