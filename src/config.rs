@@ -25,6 +25,13 @@ pub struct Settings {
     /// Largest share (0..1) of a file's rows that may be rejected before the run raises a
     /// data-loss alarm (exit code 1). Default 0.01.
     pub max_rejected_share: f64,
+    /// Largest share (0..1) of a stage's units (segments, short counts) that may fall back
+    /// from the stage's method to a cruder substitute (a default factor group, unfactored
+    /// counts, regression instead of kriging, a design input without its figures) before the
+    /// run raises a fallback alarm (exit code 1) naming the stage. Default 0.10: a tenth of the
+    /// network resting on substitutes is material for a published statistic (project choice,
+    /// in line with the ±10 % precision target of TMG factor groups).
+    pub max_fallback_share: f64,
     /// IANA time-zone name (e.g. `America/New_York`) for count timestamps written without a
     /// UTC offset, as many logger exports are. A timestamp with an offset keeps its own. A
     /// clock time the zone skips (spring forward) is rejected; one it repeats (fall back) is
@@ -41,6 +48,8 @@ pub struct Settings {
     pub expansion: ExpansionParams,
     /// Estimation of uncounted segments.
     pub spatial: SpatialParams,
+    /// Assembly of each segment's row (uncertainty of figures without a spread of their own).
+    pub segments: crate::segments::SegmentsParams,
     /// Toll rates per vehicle-km and group, for the payment comparison.
     pub toll: crate::toll::reconcile::TollRates,
     /// Design period and pavement type for the design inputs.
@@ -52,12 +61,14 @@ impl Default for Settings {
         Settings {
             year: None,
             max_rejected_share: 0.01,
+            max_fallback_share: 0.10,
             time_zone: None,
             qc: QcParams::default(),
             continuous: ContinuousParams::default(),
             factors: FactorParams::default(),
             expansion: ExpansionParams::default(),
             spatial: SpatialParams::default(),
+            segments: Default::default(),
             toll: Default::default(),
             design: Default::default(),
         }
@@ -97,6 +108,12 @@ impl Settings {
                 "max_rejected_share = {m} is a share of a file's rows: it must be in [0, 1]"
             )));
         }
+        let m = self.max_fallback_share;
+        if !(0.0..=1.0).contains(&m) {
+            return Err(bad(format!(
+                "max_fallback_share = {m} is a share of a stage's segments or counts: it must be in [0, 1]"
+            )));
+        }
         let c = self.qc.min_coverage;
         if !(c > 0.0 && c <= 1.0) {
             return Err(bad(format!(
@@ -108,6 +125,34 @@ impl Settings {
                 "[spatial] neighbours = {} counted segments is too few for a kriging system with a drift: at least 3",
                 self.spatial.neighbours
             )));
+        }
+        let full = self.spatial.full_model_min_counts;
+        let terms = crate::spatial::stage::FULL_MODEL_TERMS;
+        if full <= terms {
+            return Err(bad(format!(
+                "[spatial] full_model_min_counts = {full} counted segments cannot fit the full drift model's {terms} coefficients with any residual freedom: at least {}",
+                terms + 1
+            )));
+        }
+        let g = &self.segments;
+        let r = g.share_borrow_reach_km;
+        if !(r > 0.0 && r <= 1000.0) {
+            return Err(bad(format!(
+                "[segments] share_borrow_reach_km = {r} is a distance along a route: it must be in (0, 1000] km"
+            )));
+        }
+        for (key, v) in [
+            ("counter_d_cv", g.counter_d_cv),
+            ("counter_phf_cv", g.counter_phf_cv),
+            ("short_count_d_cv", g.short_count_d_cv),
+            ("short_count_share_cv", g.short_count_share_cv),
+            ("peak_ratio_cv", g.peak_ratio_cv),
+        ] {
+            if !(0.0..=1.0).contains(&v) {
+                return Err(bad(format!(
+                    "[segments] {key} = {v} is a relative standard deviation: it must be in [0, 1]"
+                )));
+            }
         }
         if let Some(z) = &self.time_zone {
             z.parse::<chrono_tz::Tz>().map_err(|_| {
@@ -280,6 +325,35 @@ mod tests {
         assert!(e.contains("Mars/Olympus") && e.contains("IANA"), "{e}");
         let s = Settings::parse("time_zone = \"America/Chicago\"").unwrap();
         assert!(s.read_options().time_zone.is_some());
+    }
+
+    /// The switches of the spatial and segment stages are range-checked by name.
+    #[test]
+    fn model_switches_and_cvs_are_range_checked() {
+        for (text, needle) in [
+            (
+                "[spatial]\nfull_model_min_counts = 12",
+                "full_model_min_counts = 12",
+            ),
+            ("[segments]\ncounter_d_cv = 1.5", "counter_d_cv = 1.5"),
+            (
+                "[segments]\nshort_count_share_cv = -0.1",
+                "short_count_share_cv",
+            ),
+            (
+                "[segments]\nshare_borrow_reach_km = 0.0",
+                "share_borrow_reach_km",
+            ),
+        ] {
+            let e = Settings::parse(text).unwrap_err().to_string();
+            assert!(e.contains(needle), "{text}: {e}");
+        }
+        let s = Settings::parse(
+            "[spatial]\nfull_model_min_counts = 13\n[segments]\npeak_ratio_cv = 0.0",
+        )
+        .unwrap();
+        assert_eq!(s.spatial.full_model_min_counts, 13);
+        assert_eq!(s.segments.peak_ratio_cv, 0.0);
     }
 
     #[test]

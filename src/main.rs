@@ -76,6 +76,18 @@ fn dispatch(cli: &Cli) -> anyhow::Result<u8> {
                 println!(
                     "segments: {c} from permanent counters, {s} from short counts, {e} estimated"
                 );
+                let fb: Vec<String> = report
+                    .fallbacks
+                    .iter()
+                    .map(|(stage, n, of, unit)| format!("{stage} {n} of {of} {unit}"))
+                    .collect();
+                println!("fallbacks (diagnostics.csv): {}", fb.join(", "));
+                let [p, c] = report.design_gaps;
+                if p + c > 0 {
+                    println!(
+                        "design inputs: {p} segments without pavement inputs, {c} without capacity inputs (design_inputs.csv says why)"
+                    );
+                }
                 if let Some((v, lo, hi)) = report.network_vkt {
                     println!(
                         "network daily VKT: {v:.0} veh-km/day (95 % {lo:.0} to {hi:.0}, segments independent)"

@@ -46,7 +46,13 @@ pub struct CheckReport {
     pub count_rows_used: u64,
     /// The study year.
     pub year: Option<i32>,
+    /// The first [`SHOWN_REJECTS`] rejected rows, for the terminal (all of them go to
+    /// rejected_rows.csv in a run).
+    pub first_rejected: Vec<crate::model::RejectedRow>,
 }
+
+/// Rejected rows `check` prints one by one.
+pub const SHOWN_REJECTS: usize = 20;
 
 impl CheckReport {
     /// Rows read over every file.
@@ -108,6 +114,7 @@ pub fn check_report(data: &StudyData, year: Option<i32>) -> CheckReport {
         station_days: data.counts.days.iter().map(|d| d.len()).sum(),
         count_rows_used: data.counts.rows_used,
         year,
+        first_rejected: data.rejected.iter().take(SHOWN_REJECTS).cloned().collect(),
     }
 }
 
@@ -149,18 +156,51 @@ pub struct Results {
     pub segments: Vec<crate::segments::SegmentRow>,
     /// Toll reconciliation, when the study has a toll.csv.
     pub toll: Option<Vec<crate::toll::stage::TollResult>>,
-    /// Design inputs per segment.
-    pub design: Vec<crate::design::stage::DesignRow>,
+    /// Design inputs per segment, with the stage's diagnostics.
+    pub design: crate::design::stage::DesignOutput,
     /// Network totals.
     pub totals: Vec<crate::totals::Total>,
 }
 
+impl Results {
+    /// Every stage's diagnostics, in stage order.
+    pub fn diagnostics(&self) -> [&crate::model::StageDiagnostics; 4] {
+        [
+            &self.factors.diagnostics,
+            &self.expansion.diagnostics,
+            &self.spatial.diagnostics,
+            &self.design.diagnostics,
+        ]
+    }
+}
+
 /// The alarms of a finished run (exit code 1): data loss beyond `max_rejected_share` in a
-/// file, a run without its foundation (no permanent counter gave statistics for the study
-/// year, so no factor comes from the study's own data), and a run where no count reached
-/// any segment (every segment's figures are then empty).
+/// file; a run without its foundation (no permanent counter gave statistics for the study
+/// year, so no factor comes from the study's own data); a run where no count reached any
+/// segment (every segment's figures are then empty); a stage that fell back from its method
+/// for more than `max_fallback_share` of its units.
 pub fn alarms(r: &Results, settings: &crate::config::Settings) -> Vec<String> {
     let mut out = check_report(&r.data, Some(r.year)).loss_alarms(settings.max_rejected_share);
+    for d in r.diagnostics() {
+        if d.fallback_units > 0 && d.fallback_share() > settings.max_fallback_share {
+            let kinds: Vec<String> = d
+                .items
+                .iter()
+                .filter(|i| i.fallback)
+                .map(|i| format!("{} {}", i.count, i.kind))
+                .collect();
+            out.push(format!(
+                "stage {}: {} of {} {} ({:.1} %) fell back from its method, more than max_fallback_share = {:.1} % ({}): see diagnostics.csv",
+                d.stage,
+                d.fallback_units,
+                d.total,
+                d.unit,
+                100.0 * d.fallback_share(),
+                100.0 * settings.max_fallback_share,
+                kinds.join("; ")
+            ));
+        }
+    }
     if r.continuous.stations.is_empty() {
         let why = r.continuous.skipped.first().map_or(
             "the study has no permanent counter".to_string(),
@@ -188,10 +228,7 @@ pub fn alarms(r: &Results, settings: &crate::config::Settings) -> Vec<String> {
 pub fn compute(config: &Config) -> Result<Results, PipelineError> {
     let progress = Progress::new(config.quiet);
     let settings = &config.settings;
-    let mut data =
-        input::read_study_with(&config.study, &config.settings.read_options(), &progress)?;
-    let assignment =
-        input::extras::read_group_assignment(&data.root, &mut data.rejected, &mut data.files)?;
+    let data = input::read_study_with(&config.study, &config.settings.read_options(), &progress)?;
     let year = study_year(config, &data).ok_or(PipelineError::NoYear)?;
     let qc_input = crate::qc::QcInput {
         counts: &data.counts,
@@ -214,7 +251,7 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
         history: &data.history,
         continuous: &continuous,
         year,
-        assignment: assignment.as_deref(),
+        assignment: data.assignment.as_deref(),
     };
     let factors = crate::factors::stage::run(&factor_input, &settings.factors)?;
     let calibration = calibrate(
@@ -240,14 +277,17 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
         observations: &obs,
     };
     let spatial = crate::spatial::stage::run(&spatial_input, &settings.spatial)?;
-    let segments = crate::segments::assemble(&crate::segments::SegmentsInput {
-        network: &data.network,
-        stations: &data.stations,
-        continuous: &continuous,
-        factors: &factors,
-        expansion: &expansion,
-        spatial: &spatial,
-    });
+    let segments = crate::segments::assemble(
+        &crate::segments::SegmentsInput {
+            network: &data.network,
+            stations: &data.stations,
+            continuous: &continuous,
+            factors: &factors,
+            expansion: &expansion,
+            spatial: &spatial,
+        },
+        &settings.segments,
+    );
     let toll = data.toll.as_ref().map(|t| {
         crate::toll::stage::run(&crate::toll::stage::TollInput {
             network: &data.network,
@@ -258,12 +298,11 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
             factors: &factors,
         })
     });
-    let tables = input::read_design_tables(&data.root)?;
     let design_input = crate::design::stage::DesignInput {
         network: &data.network,
         segments: &segments,
         factors: &factors,
-        tables: &tables,
+        tables: &data.design_tables,
     };
     let design = crate::design::stage::run(&design_input, &settings.design);
     let totals = crate::totals::network_totals(&data.network, &segments);
@@ -342,6 +381,27 @@ impl fmt::Display for CheckReport {
             writeln!(f, "\nrejected rows by reason:")?;
             for (why, n) in &self.rejected_by_reason {
                 writeln!(f, "  {n:>8}  {why}")?;
+            }
+            writeln!(
+                f,
+                "\nrejected rows{} (file:line, column, value: reason):",
+                if self.rows_rejected() > self.first_rejected.len() as u64 {
+                    format!(", the first {}", self.first_rejected.len())
+                } else {
+                    String::new()
+                }
+            )?;
+            for r in &self.first_rejected {
+                let col = if r.column.is_empty() {
+                    "whole row".to_string()
+                } else {
+                    format!("column {}", r.column)
+                };
+                writeln!(
+                    f,
+                    "  {}:{}, {col}, {:?}: {}",
+                    r.file, r.line, r.value, r.reason
+                )?;
             }
         }
         writeln!(

@@ -10,6 +10,53 @@ use crate::factors::stage::FactorOutput;
 use crate::model::{Network, StationList};
 use crate::spatial::stage::{Interval, Observation, SpatialOutput};
 
+/// Settings of the segment assembly (`[segments]` in study.toml): the uncertainty given to
+/// figures measured without a spread of their own, and the reach of the same-road rule for
+/// class shares.
+#[derive(Debug, Clone, serde::Serialize, serde::Deserialize, PartialEq)]
+#[serde(default, deny_unknown_fields)]
+pub struct SegmentsParams {
+    /// Reach along a route, km, within which a segment without a classified count takes the
+    /// class shares of the nearest classified segment on the same route (the TMG's "same
+    /// road" application, §2.5 of the references). Default 30 km, the spatial stage's
+    /// `route_reach_km`: about the length over which a route's truck mix holds between major
+    /// junctions (common practice, an assumption).
+    pub share_borrow_reach_km: f64,
+    /// Relative standard deviation of a permanent counter's measured D-factor. Default 0.02:
+    /// D comes from one design hour of a whole counted year, so only its hour-to-hour noise
+    /// remains; ±4 % at 95 % (an assumption, common practice; no published figure).
+    pub counter_d_cv: f64,
+    /// Relative standard deviation of a permanent counter's peak-hour factor. Default 0.02, as
+    /// for D: the PHF is averaged over the counter's busiest hours of a whole year (an
+    /// assumption, common practice).
+    pub counter_phf_cv: f64,
+    /// Relative standard deviation of the D-factor of short counts (the mean direction split
+    /// of their peak hours). Default 0.05: a few days' peak hours vary more than a year's
+    /// design hour (an assumption, common practice).
+    pub short_count_d_cv: f64,
+    /// Relative standard deviation of the class shares of a short classified count. Default
+    /// 0.15: the day-to-day spread of a heavy share over a 24-48 h count (common practice).
+    pub short_count_share_cv: f64,
+    /// Coefficient of variation of the group's ratio K30 / peak-hour share when the group has
+    /// fewer than two counters to measure it. Default 0.15 (an assumption, common practice:
+    /// the K30 spread within a factor group is of that order, §3.1 of the references gives
+    /// K 12-18 % on main rural highways).
+    pub peak_ratio_cv: f64,
+}
+
+impl Default for SegmentsParams {
+    fn default() -> Self {
+        SegmentsParams {
+            share_borrow_reach_km: 30.0,
+            counter_d_cv: 0.02,
+            counter_phf_cv: 0.02,
+            short_count_d_cv: 0.05,
+            short_count_share_cv: 0.15,
+            peak_ratio_cv: 0.15,
+        }
+    }
+}
+
 /// Where a segment's AADT comes from.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Basis {
@@ -159,11 +206,11 @@ fn network_stats(
 }
 
 /// Class shares for segments without a classified count of their own: the nearest classified
-/// segment on the same route within 30 km (the "same road" principle), else the group. Either
+/// segment on the same route within `reach_km` (the "same road" principle), else the group. Either
 /// way the interval reflects how much heavy shares differ between segments: the standard
 /// deviation of ln(heavy share) over the study's classified segments (at least 0.25; 0.5 when
 /// fewer than three are classified).
-fn borrow_shares(net: &Network, rows: &mut [SegmentRow]) {
+fn borrow_shares(net: &Network, rows: &mut [SegmentRow], reach_km: f64) {
     let measured = |r: &SegmentRow| {
         r.heavy
             .as_ref()
@@ -185,7 +232,7 @@ fn borrow_shares(net: &Network, rows: &mut [SegmentRow]) {
         0.5
     };
     let classified: Vec<bool> = rows.iter().map(measured).collect();
-    let routes = crate::spatial::network_drift::RouteNeighbours::build(net, &classified, 30.0);
+    let routes = crate::spatial::network_drift::RouteNeighbours::build(net, &classified, reach_km);
     let widen = |v: f64, source: String| Sourced {
         value: v,
         lo95: v * (-Z95 * s_b).exp(),
@@ -255,7 +302,7 @@ pub struct SegmentsInput<'a> {
 }
 
 /// Builds every segment's row.
-pub fn assemble(input: &SegmentsInput) -> Vec<SegmentRow> {
+pub fn assemble(input: &SegmentsInput, params: &SegmentsParams) -> Vec<SegmentRow> {
     let (data, cont, factors, exp, spatial) = (
         input,
         input.continuous,
@@ -334,12 +381,12 @@ pub fn assemble(input: &SegmentsInput) -> Vec<SegmentRow> {
                 if let Some(d) = &s.design {
                     row.k = Some(Sourced::measured(d.k30, s.aadt_log_sd, "counter"));
                     if s.d_measured && !oneway {
-                        row.d = Some(Sourced::measured(d.d, 0.02, "counter"));
+                        row.d = Some(Sourced::measured(d.d, params.counter_d_cv, "counter"));
                     }
                     row.design_hour_heavy = d.heavy_share;
                 }
                 if let Some(p) = s.phf {
-                    row.phf = Some(Sourced::measured(p, 0.02, "counter"));
+                    row.phf = Some(Sourced::measured(p, params.counter_phf_cv, "counter"));
                 }
                 row.count_years = s.aadt.year.to_string();
                 row.count_type = "continuous".into();
@@ -387,7 +434,11 @@ pub fn assemble(input: &SegmentsInput) -> Vec<SegmentRow> {
                         .filter_map(|x| x.daily_peak_share.map(|p| p * x.peak_days as f64))
                         .sum::<f64>()
                         / peak_days as f64;
-                    let cv_r = if ratio.n >= 2 { ratio.cv } else { 0.15 };
+                    let cv_r = if ratio.n >= 2 {
+                        ratio.cv
+                    } else {
+                        params.peak_ratio_cv
+                    };
                     // Day-to-day spread of a peak-hour share: 10 % (common practice).
                     let s = (cv_r * cv_r * (1.0 + 1.0 / ratio.n.max(1) as f64)
                         + 0.01 / peak_days as f64)
@@ -411,7 +462,7 @@ pub fn assemble(input: &SegmentsInput) -> Vec<SegmentRow> {
                 let ds: Vec<f64> = counts.iter().filter_map(|x| x.peak_d).collect();
                 if !ds.is_empty() && !oneway {
                     let d = ds.iter().sum::<f64>() / ds.len() as f64;
-                    row.d = Some(Sourced::measured(d, 0.05, "short_count"));
+                    row.d = Some(Sourced::measured(d, params.short_count_d_cv, "short_count"));
                 }
                 let classified: Vec<_> =
                     counts.iter().filter(|x| x.heavy_share.is_some()).collect();
@@ -420,20 +471,21 @@ pub fn assemble(input: &SegmentsInput) -> Vec<SegmentRow> {
                     let mean = |f: fn(&&&crate::expansion::stage::ExpandedCount) -> Option<f64>| {
                         classified.iter().filter_map(f).sum::<f64>() / n
                     };
-                    // A short classified count's share carries its day-to-day spread: 15 % relative (common practice).
+                    // A short classified count's share carries its day-to-day spread.
+                    let cv = params.short_count_share_cv;
                     row.heavy = Some(Sourced::measured(
                         mean(|x| x.heavy_share),
-                        0.15,
+                        cv,
                         "short_count",
                     ));
                     row.single_unit = Some(Sourced::measured(
                         mean(|x| x.single_unit_share),
-                        0.15,
+                        cv,
                         "short_count",
                     ));
                     row.combination = Some(Sourced::measured(
                         mean(|x| x.combination_share),
-                        0.15,
+                        cv,
                         "short_count",
                     ));
                 }
@@ -444,6 +496,6 @@ pub fn assemble(input: &SegmentsInput) -> Vec<SegmentRow> {
             row
         })
         .collect::<Vec<_>>();
-    borrow_shares(input.network, &mut rows);
+    borrow_shares(input.network, &mut rows, params.share_borrow_reach_km);
     rows
 }

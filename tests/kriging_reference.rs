@@ -2,9 +2,9 @@
 //!
 //! * Isaaks & Srivastava (1989), *An Introduction to Applied Geostatistics*, ch. 12, figs.
 //!   12.3–12.12: the seven-sample ordinary-kriging example (inputs and published results as
-//!   encoded in the geoR test script; see `/work/shared/references.md` §7.1). Published
+//!   encoded in the geoR test script; see `tests/fixtures/REFERENCES.md` §7.1). Published
 //!   estimates are rounded to integers and variances to 0.01, hence ±0.5 and ±0.005.
-//! * The KED and UK check cases of references.md §7.2, re-run with PyKrige 1.7.3
+//! * The KED and UK check cases of tests/fixtures/REFERENCES.md §7.2, re-run with PyKrige 1.7.3
 //!   (`UniversalKriging`, `backend="vectorized"`), whose output is quoted to full precision.
 //! * `tests/fixtures/kriging/pykrige_uk.json`: 40 points, two specified drift terms, exponential
 //!   variogram with a nugget, 10 targets, produced by `tests/fixtures/kriging/make_fixture.py`
@@ -48,7 +48,7 @@ fn exp_model(psill: f64, range: f64, nugget: f64) -> CovarianceModel {
     CovarianceModel::new(ModelKind::Exponential, psill, range, nugget).unwrap()
 }
 
-/// Isaaks & Srivastava fig. 12.3: C(h) = 10·exp(−0.3h) → 593, 8.96; weights (references.md
+/// Isaaks & Srivastava fig. 12.3: C(h) = 10·exp(−0.3h) → 593, 8.96; weights (tests/fixtures/REFERENCES.md
 /// §7.1, computed, matching the book's table).
 #[test]
 fn isaaks_srivastava_12_3() {
@@ -109,7 +109,7 @@ fn isaaks_srivastava_12_10_nugget_convention() {
 
 const F: [f64; 7] = [1.0, 2.0, 0.5, 1.5, 2.5, 3.0, 2.0];
 
-/// references.md §7.2 KED: 610.05, 8.9697; PyKrige 1.7.3 (specified drift, vectorized):
+/// tests/fixtures/REFERENCES.md §7.2 KED: 610.05, 8.9697; PyKrige 1.7.3 (specified drift, vectorized):
 /// 610.049897122857, 8.969694283950686; weights sum to 1 and reproduce f₀ = 1.8.
 #[test]
 fn ked_check_case() {

@@ -1,4 +1,4 @@
-//! Short-count expansion checked end to end against the worked year of references §1.5 and
+//! Short-count expansion checked end to end against the worked year of tests/fixtures/REFERENCES.md §1.5 and
 //! the factor values of §2.4 (TMG factor definitions and Eq. 3-1 style expansion, FHWA
 //! Traffic Monitoring Guide 2016 §3, from memory; the numbers are computed and exact).
 //!
@@ -14,12 +14,12 @@ use roadtally::expansion::{
     expand, periods, CountHour, ExpansionParams, GroupFactors, Growth, Measure, ShortCount,
 };
 
-/// references §1.5: monthly multipliers (mean 1.00).
+/// tests/fixtures/REFERENCES.md §1.5: monthly multipliers (mean 1.00).
 const M: [f64; 12] = [
     0.80, 0.85, 0.95, 1.00, 1.05, 1.10, 1.20, 1.15, 1.05, 1.00, 0.95, 0.90,
 ];
 
-/// references §1.5: daily volume Mon–Fri 10,000, Sat 8,000, Sun 6,000, times M[month].
+/// tests/fixtures/REFERENCES.md §1.5: daily volume Mon–Fri 10,000, Sat 8,000, Sun 6,000, times M[month].
 fn volume(d: NaiveDate) -> f64 {
     let base = match d.weekday().num_days_from_monday() {
         0..=4 => 10_000.0,
@@ -44,7 +44,7 @@ fn station_factors() -> StationFactors {
         })
         .collect();
     let r = compute_aadt(2023, &days, &SufficiencyRule::default()).unwrap();
-    // references §1.5: AASHTO AADT of the complete year = 64000/7 = 9142.857.
+    // tests/fixtures/REFERENCES.md §1.5: AASHTO AADT of the complete year = 64000/7 = 9142.857.
     assert_relative_eq!(r.aashto.unwrap(), 64_000.0 / 7.0, max_relative = 1e-9);
     r.factors().expect("a complete year gives factors")
 }
@@ -71,7 +71,7 @@ fn assert_recovers_the_aadt(hours: &[CountHour], g: &GroupFactors) {
     assert_eq!(e.days, 2);
 }
 
-/// references §2.4: F(Tue, Jul) = 0.7619 and a 48-hour Tue–Wed July count of 12,000 per day
+/// tests/fixtures/REFERENCES.md §2.4: F(Tue, Jul) = 0.7619 and a 48-hour Tue–Wed July count of 12,000 per day
 /// expands to 9142.857 (exact recovery), the same as MF × DF = 0.8333 × 0.9143.
 #[test]
 fn a_48_hour_july_count_expands_to_the_published_aadt() {
@@ -96,7 +96,7 @@ fn a_48_hour_july_count_expands_to_the_published_aadt() {
 
 /// A count from Friday noon to Sunday noon: each 24-hour period straddles two days, and each
 /// day's hours are factored by that day's factor (module docs of `expansion`). Each day's
-/// part then recovers its share of the AADT exactly (F = AADT / V per day, references §2.1),
+/// part then recovers its share of the AADT exactly (F = AADT / V per day, tests/fixtures/REFERENCES.md §2.1),
 /// so the count expands to the §1.5 AADT to 1e-9 although its days differ by 40 % in volume
 /// (a mean of the two days' factors weighted by hours would be 1.7 % high here).
 #[test]

@@ -18,10 +18,10 @@
 //! Vehicles/day; axles; shares and factors dimensionless.
 //!
 //! # References
-//! - FHWA TMG 2013 App. C vehicle types (read, `references.md` §4); HPMS SU = 4-7, CU = 8-13
-//!   (read, agency glossary citing the HPMS Field Manual, `references.md` §4).
+//! - FHWA TMG 2013 App. C vehicle types (read, `tests/fixtures/REFERENCES.md` §4); HPMS SU = 4-7, CU = 8-13
+//!   (read, agency glossary citing the HPMS Field Manual, `tests/fixtures/REFERENCES.md` §4).
 //! - ACF: TMG 2013 ch. 3, FHWA *Traffic Data Computation Method Pocket Guide* (2018) p. 12
-//!   (from memory, `references.md` §2.2).
+//!   (from memory, `tests/fixtures/REFERENCES.md` §2.2).
 //! - AASHTO method: TMG 2022 App. L (read).
 
 use std::ops::RangeInclusive;
@@ -207,7 +207,7 @@ mod tests {
 
     #[test]
     fn acf_refs_2_2() {
-        // Source: references.md §2.2 (computed): 1000 vehicles, 2300 axles → 0.8696.
+        // Source: tests/fixtures/REFERENCES.md §2.2 (computed): 1000 vehicles, 2300 axles → 0.8696.
         assert_relative_eq!(
             axle_correction_factor(1000.0, 2300.0).unwrap(),
             0.8696,

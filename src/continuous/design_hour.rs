@@ -27,10 +27,10 @@
 //!
 //! # References
 //! - AASHTO *A Policy on Geometric Design of Highways and Streets* (2011/2018) ch. 2, design
-//!   hourly volume (paraphrased via a secondary source, `references.md` §3.1).
-//! - HPMS Field Manual K_Factor / Dir_Factor items (from memory, `references.md` §3.1).
+//!   hourly volume (paraphrased via a secondary source, `tests/fixtures/REFERENCES.md` §3.1).
+//! - HPMS Field Manual K_Factor / Dir_Factor items (from memory, `tests/fixtures/REFERENCES.md` §3.1).
 //! - TRB *Highway Capacity Manual* 6th/7th ed., peak hour factor (from memory,
-//!   `references.md` §3.2).
+//!   `tests/fixtures/REFERENCES.md` §3.2).
 //! - `docs data-contract.md`: the design hour is the 30th-highest two-way clock hour of the
 //!   study year.
 
@@ -331,7 +331,7 @@ mod tests {
 
     #[test]
     fn k30_d_dhv_ddhv_hand_ranked() {
-        // Source: references.md §3.1 definitions and §3.3 worked numbers
+        // Source: tests/fixtures/REFERENCES.md §3.1 definitions and §3.3 worked numbers
         // (AADT 10,000, V30 1,500, peak direction 900 → K 0.15, D 0.60, DHV 1500, DDHV 900).
         let dh = design_hour(&hand_example(), 10_000.0, 5).unwrap();
         assert_relative_eq!(dh.v30, 1500.0, max_relative = 1e-12);
@@ -392,7 +392,7 @@ mod tests {
 
     #[test]
     fn phf_hcm_example() {
-        // Source: references.md §3.3 (HCM PHF formula, from memory; computed 0.8333).
+        // Source: tests/fixtures/REFERENCES.md §3.3 (HCM PHF formula, from memory; computed 0.8333).
         assert_relative_eq!(
             peak_hour_factor([220.0, 240.0, 300.0, 240.0]).unwrap(),
             1000.0 / 1200.0,

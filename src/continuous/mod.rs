@@ -28,11 +28,11 @@
 //!
 //! # References
 //! - FHWA, *Traffic Monitoring Guide* (TMG), 2022, Appendix L "AASHTO AADT Calculation"
-//!   (read, per `references.md` §1.1); TMG 2016 ch. 3 for the calendar-weighted method and
-//!   the factor definitions (from memory, per `references.md` §1.3, §2.1).
+//!   (read, per `tests/fixtures/REFERENCES.md` §1.1); TMG 2016 ch. 3 for the calendar-weighted method and
+//!   the factor definitions (from memory, per `tests/fixtures/REFERENCES.md` §1.3, §2.1).
 //! - AASHTO, *Guidelines for Traffic Data Programs*, 2nd ed., 2009 (from memory).
 //! - AASHTO *A Policy on Geometric Design* (Green Book), ch. 2, for K30/D/DHV (paraphrased,
-//!   per `references.md` §3.1); TRB *Highway Capacity Manual* for PHF (from memory).
+//!   per `tests/fixtures/REFERENCES.md` §3.1); TRB *Highway Capacity Manual* for PHF (from memory).
 //! - Imputation of empty cells, tie rules and day-type hourly shares are project decisions
 //!   (stated in each module); they are common practice, not published rules.
 

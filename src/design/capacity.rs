@@ -2,7 +2,7 @@
 //! design-hour heavy-vehicle share, each saying whether it was measured or a default.
 //!
 //! # Method
-//! - `DDHV = DHV · D` (references §3.1; AASHTO Green Book ch. 2). Its interval is the DHV
+//! - `DDHV = DHV · D` (tests/fixtures/REFERENCES.md §3.1; AASHTO Green Book ch. 2). Its interval is the DHV
 //!   interval times `D`: `D` is taken as known, since it comes from the same design hour
 //!   as DHV and, on a one-way segment, is exactly 1.
 //! - PHF: the measured value (`V_hour / (4 · V_15max)` from 15-minute data, computed by the
@@ -15,7 +15,7 @@
 //! Vehicles/hour (DHV, DDHV); PHF and shares are fractions.
 //!
 //! # References
-//! - TRB, *Highway Capacity Manual*, 6th ed., 2016 (defaults from memory; references §3.2).
+//! - TRB, *Highway Capacity Manual*, 6th ed., 2016 (defaults from memory; tests/fixtures/REFERENCES.md §3.2).
 //! - AASHTO, *A Policy on Geometric Design of Highways and Streets*, ch. 2 (K, D, DHV).
 
 use super::{check_range, DesignError};
@@ -191,7 +191,7 @@ mod tests {
         assert_eq!(c.hv_source.as_str(), "measured");
     }
 
-    /// HCM 6th ed. defaults (from memory, references §3.2): rural freeway PHF 0.88, heavy
+    /// HCM 6th ed. defaults (from memory, tests/fixtures/REFERENCES.md §3.2): rural freeway PHF 0.88, heavy
     /// vehicles 12 %; urban other roads PHF 0.92.
     #[test]
     fn hcm_defaults_fill_gaps_and_are_marked() {

@@ -1,7 +1,7 @@
 //! The AASHTO 1993 Appendix D load-equivalency equations and truck factors from axle loads.
 //!
 //! # Method
-//! `LEF = W_t18 / W_tx` (equations from memory, references §5.2), `Lx` the axle load in kips,
+//! `LEF = W_t18 / W_tx` (equations from memory, tests/fixtures/REFERENCES.md §5.2), `Lx` the axle load in kips,
 //! `L2` = 1 single, 2 tandem, 3 tridem:
 //!
 //! ```text
@@ -22,7 +22,7 @@
 //!
 //! # References
 //! - AASHTO, *Guide for Design of Pavement Structures*, 1993, App. D (Tables D.4/D.5
-//!   reproduced to 3 significant figures by the equations; references §5.2).
+//!   reproduced to 3 significant figures by the equations; tests/fixtures/REFERENCES.md §5.2).
 
 use super::{check_range, DesignError};
 
@@ -95,7 +95,7 @@ pub fn lef_rigid(load_kips: f64, axle: AxleType, slab_in: f64, pt: f64) -> f64 {
 ///
 /// ```
 /// use roadtally::design::{truck_factor_flexible, AxleType};
-/// // 80-kip 3-S2: 12-kip steer axle and two 34-kip tandems (references §5.3).
+/// // 80-kip 3-S2: 12-kip steer axle and two 34-kip tandems (tests/fixtures/REFERENCES.md §5.3).
 /// let tf = truck_factor_flexible(&[(12.0, AxleType::Single), (34.0, AxleType::Tandem), (34.0, AxleType::Tandem)], 5.0, 2.5).unwrap();
 /// assert!((tf - 2.3786).abs() < 1e-3);
 /// ```

@@ -8,7 +8,7 @@
 //!   [`load_equivalency`]: the AASHTO 1993 Appendix D load-equivalency equations
 //!   ([`lef_flexible`], [`lef_rigid`]).
 //! - [`pavement`]: `w18 = 365 · AADT · T · TF · D_D · D_L · GF` (AASHTO 1993 Part II
-//!   §2.1.3 and App. D; references §5.1, §5.4) with the compound growth factor
+//!   §2.1.3 and App. D; tests/fixtures/REFERENCES.md §5.1, §5.4) with the compound growth factor
 //!   `GF = ((1+g)^n − 1)/g`; intervals from the AADT, heavy-share and growth-rate intervals,
 //!   combined in log space in quadrature (see [`pavement`] for the stated assumption).
 //! - [`capacity`]: `DDHV = DHV · D`; measured PHF and design-hour heavy share where the
@@ -23,11 +23,11 @@
 //! # References
 //! - AASHTO, *Guide for Design of Pavement Structures*, 1993: Part II §2.1.3 (D_D, D_L
 //!   table) and Appendix D (load-equivalency equations). Values from memory in
-//!   `references.md` §5, reproduced by computation where marked.
+//!   `tests/fixtures/REFERENCES.md` §5, reproduced by computation where marked.
 //! - Transportation Research Board, *Highway Capacity Manual*, 6th ed., 2016 (defaults from
-//!   memory, references §3.2; they trace to NCHRP Report 599, 2008).
+//!   memory, tests/fixtures/REFERENCES.md §3.2; they trace to NCHRP Report 599, 2008).
 //! - FHWA *Traffic Monitoring Guide* (TMG) 2013/2016/2022: vehicle classes and groups
-//!   (references §4).
+//!   (tests/fixtures/REFERENCES.md §4).
 
 pub mod capacity;
 pub mod load_equivalency;
@@ -50,7 +50,7 @@ pub use crate::model::design_tables::{
 use thiserror::Error;
 
 /// Errors of the design-input maths.
-#[derive(Debug, Error)]
+#[derive(Debug, Clone, PartialEq, Error)]
 pub enum DesignError {
     /// An input value is out of its domain.
     #[error("{name} = {value} is not valid: {expected}")]

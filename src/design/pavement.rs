@@ -5,7 +5,7 @@
 //! - Heavy AADT `= AADT · T` (`T` = share of classes 4–13); single-unit (4–7) and
 //!   combination (8–13) AADT split it by the [`HeavyMix`].
 //! - Truck factor `TF` (ESALs per heavy vehicle) = the heavy-mix-weighted mean of the
-//!   per-class (or per-group) factors of a [`LoadEquivalency`] table (references §5.3).
+//!   per-class (or per-group) factors of a [`LoadEquivalency`] table (tests/fixtures/REFERENCES.md §5.3).
 //! - `D_D`: directional distribution of the heavy ESALs; given, or 0.5 on a two-way and
 //!   1.0 on a one-way segment (AASHTO 1993 Part II §2.1.3 "usually 0.50", from memory).
 //! - `D_L` from the [`LaneDistribution`] table with lanes per direction = `lanes_total / 2`
@@ -15,7 +15,7 @@
 //! - First-year design-lane ESALs `w18_1 = 365 · AADT · T · TF · D_D · D_L`; cumulative over
 //!   `n` design years `w18 = w18_1 · GF`, `GF = ((1+g)^n − 1)/g` (`n` when `g = 0`)
 //!   (AASHTO 1993 App. D; Asphalt Institute MS-1; Huang 2004 ch. 6; from memory,
-//!   references §5.4). `AADT` is the base-year (study-year) AADT; year 1 of the design
+//!   tests/fixtures/REFERENCES.md §5.4). `AADT` is the base-year (study-year) AADT; year 1 of the design
 //!   period carries it unchanged.
 //! - **Intervals** (stated assumption): the errors of AADT, of the heavy share and of the
 //!   growth rate come from different data (counts/expansion/kriging, classified counts,
@@ -36,7 +36,7 @@
 //! - AASHTO, *Guide for Design of Pavement Structures*, 1993, Part II §2.1.3 and App. D.
 //! - Asphalt Institute MS-1 growth-factor table; Y. H. Huang, *Pavement Analysis and
 //!   Design*, 2nd ed., 2004, ch. 6 (from memory).
-//! - `references.md` §4 (class groups SU 4–7, CU 8–13), §5.1, §5.3, §5.4.
+//! - `tests/fixtures/REFERENCES.md` §4 (class groups SU 4–7, CU 8–13), §5.1, §5.3, §5.4.
 
 use super::{check_range, DesignError};
 use crate::model::design_tables::{LaneDistribution, LoadEquivalency};
@@ -46,7 +46,7 @@ pub const DAYS_PER_YEAR: f64 = 365.0;
 
 /// Compound traffic growth factor over `n_years`: `((1+g)^n − 1)/g`, `n` when `g = 0`.
 ///
-/// Source: AASHTO 1993 App. D / AI MS-1 / Huang 2004 (formula from memory; references §5.4).
+/// Source: AASHTO 1993 App. D / AI MS-1 / Huang 2004 (formula from memory; tests/fixtures/REFERENCES.md §5.4).
 ///
 /// ```
 /// use roadtally::design::growth_factor;
@@ -417,7 +417,7 @@ mod tests {
         }
     }
 
-    /// Hand example (references §5.4, computed): AADT 20,000, T 12 %, TF 1.2, D_D 0.5,
+    /// Hand example (tests/fixtures/REFERENCES.md §5.4, computed): AADT 20,000, T 12 %, TF 1.2, D_D 0.5,
     /// D_L 0.9, g 4 %, n 20 → GF 29.7781, cumulative design-lane ESAL 14,086,222.
     #[test]
     fn esal_hand_example() {

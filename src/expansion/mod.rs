@@ -345,10 +345,10 @@ mod tests {
         NaiveDate::from_ymd_opt(y, m, d).unwrap()
     }
 
-    // The worked TMG example (references §1.5 / §2.4) runs end to end, factors computed by
+    // The worked TMG example (tests/fixtures/REFERENCES.md §1.5 / §2.4) runs end to end, factors computed by
     // the tool from the worked year, in tests/tmg_reference.rs.
 
-    /// Axle correction (references §2.2, computed; TMG §3 / FHWA Pocket Guide p. 12 from memory):
+    /// Axle correction (tests/fixtures/REFERENCES.md §2.2, computed; TMG §3 / FHWA Pocket Guide p. 12 from memory):
     /// 1,000 vehicles carrying 2,300 axles give ACF = 1000 / (2300 / 2) = 0.8696; a tube count of
     /// 2,300 hits on a flat pattern therefore expands back to 1,000 vehicles.
     #[test]
@@ -370,7 +370,7 @@ mod tests {
         assert_relative_eq!(e.aadt, 1000.0, max_relative = 1e-12);
     }
 
-    /// Growth (references §2.3, common practice): a 2022 count of 10,000 brought to 2025 at
+    /// Growth (tests/fixtures/REFERENCES.md §2.3, common practice): a 2022 count of 10,000 brought to 2025 at
     /// 2 %/yr compound is 10,000 × 1.02³ = 10,612.08.
     #[test]
     fn growth_hand_example() {

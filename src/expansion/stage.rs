@@ -95,6 +95,9 @@ pub struct ExpansionOutput {
     pub unexpanded: Vec<Unexpanded>,
     /// Per segment with at least one expanded count.
     pub segments: BTreeMap<usize, SegmentCount>,
+    /// Short counts handled, and those expanded with a substitute for the group's own
+    /// factors or not expanded at all (their segment then takes the spatial estimate).
+    pub diagnostics: crate::model::StageDiagnostics,
 }
 
 /// A short count (or a short station) that was not expanded.
@@ -402,7 +405,37 @@ pub fn run(input: &ExpansionInput, params: &ExpansionParams) -> ExpansionOutput 
             );
         }
     }
+    out.diagnostics = diagnostics(&out, factors);
     out
+}
+
+/// The stage's diagnostics: one unit per short count (and per short station without any).
+fn diagnostics(out: &ExpansionOutput, factors: &FactorOutput) -> crate::model::StageDiagnostics {
+    let mut d = crate::model::StageDiagnostics::new("expansion", "short counts");
+    let unfactored = factors.groups.iter().all(|g| g.factors.is_none());
+    for c in &out.counts {
+        let g = &factors.groups[c.group];
+        d.record(
+            [
+                (unfactored).then_some(("unfactored: no permanent counter gives factors", true)),
+                (c.measure == "axles" && g.acf.is_none()).then_some((
+                    "axle correction from the network mean (none in the group)",
+                    true,
+                )),
+                // TMG pooling of a group without counters of its own is the method, not a
+                // fallback; it is reported.
+                g.source
+                    .starts_with("borrowed")
+                    .then_some(("factors borrowed from other groups", false)),
+            ]
+            .into_iter()
+            .flatten(),
+        );
+    }
+    for _ in &out.unexpanded {
+        d.record([("not expanded: the segment takes the spatial estimate", true)]);
+    }
+    d
 }
 
 /// What went on in a count, to say why it gave no 24-hour period.

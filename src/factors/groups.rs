@@ -41,10 +41,10 @@
 //!
 //! # References
 //! - FHWA TMG 2013 §3.2.3 and TMG 2016 ch. 3 (factor groups; cluster, judgmental,
-//!   recreational; from memory, `references.md` §2.5); NCHRP Research Report 1124 (2024)
-//!   summary on clustering versus functional-class grouping (read, `references.md` §2.5).
-//! - Ward clustering of standardised factor profiles: common practice (`references.md` §2.5).
-//! - Precision target ±10 % at 95 %: TMG (from memory, `references.md` §2.6).
+//!   recreational; from memory, `tests/fixtures/REFERENCES.md` §2.5); NCHRP Research Report 1124 (2024)
+//!   summary on clustering versus functional-class grouping (read, `tests/fixtures/REFERENCES.md` §2.5).
+//! - Ward clustering of standardised factor profiles: common practice (`tests/fixtures/REFERENCES.md` §2.5).
+//! - Precision target ±10 % at 95 %: TMG (from memory, `tests/fixtures/REFERENCES.md` §2.6).
 
 use kodama::{linkage, Method};
 

@@ -25,7 +25,7 @@
 //! dimensionless.
 //!
 //! # References
-//! - `references.md` §2.3 (compound rate, common practice; TMG yearly factor from memory).
+//! - `tests/fixtures/REFERENCES.md` §2.3 (compound rate, common practice; TMG yearly factor from memory).
 //! - Fixed-effects (within) OLS: standard econometrics (common practice).
 
 use std::collections::{BTreeMap, HashSet};
@@ -354,7 +354,7 @@ mod tests {
 
     #[test]
     fn compound_rate_refs_2_3() {
-        // Source: references.md §2.3 formula (common practice); 10,000 × 1.02^10 = 12,189.94.
+        // Source: tests/fixtures/REFERENCES.md §2.3 formula (common practice); 10,000 × 1.02^10 = 12,189.94.
         let at = 10_000.0 * 1.02f64.powi(10);
         assert_relative_eq!(
             compound_rate(10_000.0, at, 10.0).unwrap(),

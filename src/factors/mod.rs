@@ -20,9 +20,9 @@
 //!
 //! # References
 //! - FHWA *Traffic Monitoring Guide* 2001 §3 App. 3-A, 2013 §3.2.3, 2016 ch. 3 (factor
-//!   groups, precision target, sample size; from memory, `references.md` §2.5-2.6).
+//!   groups, precision target, sample size; from memory, `tests/fixtures/REFERENCES.md` §2.5-2.6).
 //! - AASHTO *Guidelines for Traffic Data Programs*, 2009 (from memory).
-//! - NCHRP Research Report 1124 (2024), summary (read, `references.md` §2.5).
+//! - NCHRP Research Report 1124 (2024), summary (read, `tests/fixtures/REFERENCES.md` §2.5).
 //! - Growth model, clustering criterion and fallbacks: common practice / project decisions,
 //!   stated in each module.
 

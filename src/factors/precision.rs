@@ -18,8 +18,8 @@
 //!
 //! # References
 //! - FHWA TMG 2001 §3 App. 3-A and TMG 2013 §3.2.3, precision target and sample-size formula
-//!   (from memory, `references.md` §2.6); check values computed there (§11 #10).
-//! - Student t table: `references.md` §10 (computed; matches printed tables).
+//!   (from memory, `tests/fixtures/REFERENCES.md` §2.6); check values computed there (§11 #10).
+//! - Student t table: `tests/fixtures/REFERENCES.md` §10 (computed; matches printed tables).
 
 use statrs::distribution::{ContinuousCDF, Normal, StudentsT};
 
@@ -162,7 +162,7 @@ mod tests {
 
     #[test]
     fn t_table_refs_10() {
-        // Source: references.md §10 / §11 #9 (standard t tables; computed), tol 1e-4.
+        // Source: tests/fixtures/REFERENCES.md §10 / §11 #9 (standard t tables; computed), tol 1e-4.
         assert_abs_diff_eq!(t_quantile(0.975, 1.0), 12.7062, epsilon = 1e-4);
         assert_abs_diff_eq!(t_quantile(0.975, 5.0), 2.5706, epsilon = 1e-4);
         assert_abs_diff_eq!(t_quantile(0.975, 6.0), 2.4469, epsilon = 1e-4);
@@ -178,7 +178,7 @@ mod tests {
 
     #[test]
     fn sample_size_refs_2_6() {
-        // Source: references.md §2.6 / §11 #10 (TMG formula from memory; computed).
+        // Source: tests/fixtures/REFERENCES.md §2.6 / §11 #10 (TMG formula from memory; computed).
         assert_eq!(required_sample_size(0.10, 0.10, 0.95, None), Some(7));
         assert_eq!(required_sample_size(0.15, 0.10, 0.95, None), Some(12));
         assert_eq!(required_sample_size(0.20, 0.10, 0.95, None), Some(18));
@@ -190,7 +190,7 @@ mod tests {
 
     #[test]
     fn precision_refs_2_6() {
-        // Source: references.md §2.6: n = 6, C = 0.12 → ±12.59 %, fails ±10 %.
+        // Source: tests/fixtures/REFERENCES.md §2.6: n = 6, C = 0.12 → ±12.59 %, fails ±10 %.
         let p = precision_achieved(0.12, 6, 0.95).unwrap();
         assert_abs_diff_eq!(p, 0.1259, epsilon = 1e-4);
         assert!(precision_achieved(0.12, 1, 0.95).is_none());

@@ -168,6 +168,9 @@ pub struct FactorOutput {
     pub clustering: Option<Clustering>,
     /// The assignment table used.
     pub assignment: Vec<AssignmentRow>,
+    /// Segments grouped, and those that fell to the default group because no assignment row
+    /// matched them.
+    pub diagnostics: crate::model::StageDiagnostics,
 }
 
 /// A permanent counter's grouping.
@@ -374,7 +377,9 @@ pub fn run(input: &FactorInput, params: &FactorParams) -> Result<FactorOutput, F
                 (p[0] - mids[i][0]).hypot(p[1] - mids[i][1]) <= params.recreational_radius_km
             })
     };
+    let mut diagnostics = crate::model::StageDiagnostics::new("factors", "segments");
     for (i, sg) in segment_group.iter_mut().enumerate() {
+        let mut by_default = false;
         if *sg == usize::MAX {
             let s = &net.segments[i];
             let route_row = assignment.iter().any(|r| {
@@ -383,10 +388,16 @@ pub fn run(input: &FactorInput, params: &FactorParams) -> Result<FactorOutput, F
             let name = if !route_row && near_recreation(i) {
                 RuleGroup::Recreational.name()
             } else {
-                assigned_group(&assignment, net, i).unwrap_or(RuleGroup::ArterialUrban.name())
+                assigned_group(&assignment, net, i).unwrap_or_else(|| {
+                    by_default = true;
+                    RuleGroup::ArterialUrban.name()
+                })
             };
             *sg = index_of(name).expect("assignment groups are named");
         }
+        diagnostics.record(
+            by_default.then_some(("no assignment row: default group arterial_urban", true)),
+        );
     }
     // 3. Members and estimates.
     let by_station: BTreeMap<usize, &StationStats> =
@@ -522,6 +533,7 @@ pub fn run(input: &FactorInput, params: &FactorParams) -> Result<FactorOutput, F
         station_groups,
         clustering,
         assignment,
+        diagnostics,
     })
 }
 

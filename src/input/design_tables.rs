@@ -2,49 +2,90 @@
 //! factors, HCM defaults) into [`DesignTables`]; a table the study does not carry keeps its
 //! built-in default.
 
-use std::path::Path;
+use std::path::{Path, PathBuf};
 
 use super::error::InputError;
 use crate::model::design_tables::{
     DesignTables, HcmDefaults, LaneDistribution, LoadEquivalency, TableError,
 };
+use crate::model::FileSummary;
+
+/// Relative names of the design tables a study may carry under `factors/`.
+pub const DESIGN_TABLE_FILES: [&str; 3] = [
+    "factors/lane_distribution.csv",
+    "factors/truck_factors.csv",
+    "factors/hcm_defaults.csv",
+];
 
 /// The design tables of a study: its own `factors/` copies where present, else the shipped
-/// defaults (AASHTO 1993 lane distribution, truck factors, HCM defaults).
-pub fn read_design_tables(root: &Path) -> Result<DesignTables, InputError> {
+/// defaults (AASHTO 1993 lane distribution, truck factors, HCM defaults). Each table read is
+/// tallied in `files`.
+pub fn read_design_tables(
+    root: &Path,
+    files: &mut Vec<FileSummary>,
+) -> Result<DesignTables, InputError> {
     let mut t = DesignTables::default();
-    let rel = |e| study_relative(e, root);
-    let p = root.join("factors/lane_distribution.csv");
-    if p.exists() {
-        t.lanes = load_lane_distribution(&p).map_err(rel)?;
+    let [lanes, trucks, hcm] = DESIGN_TABLE_FILES;
+    if let Some(rows) = read_table(root, lanes, files)? {
+        t.lanes = LaneDistribution::from_rows(rows).map_err(whole_table(Path::new(lanes)))?;
     }
-    let p = root.join("factors/truck_factors.csv");
-    if p.exists() {
-        t.trucks = load_truck_factors(&p).map_err(rel)?;
+    if let Some(rows) = read_table(root, trucks, files)? {
+        t.trucks = LoadEquivalency::from_rows(rows).map_err(whole_table(Path::new(trucks)))?;
     }
-    let p = root.join("factors/hcm_defaults.csv");
-    if p.exists() {
-        t.hcm = load_hcm_defaults(&p).map_err(rel)?;
+    if let Some(rows) = read_table(root, hcm, files)? {
+        t.hcm = HcmDefaults::from_rows(rows).map_err(whole_table(Path::new(hcm)))?;
     }
     Ok(t)
 }
 
-/// The error with its path relative to the study folder, as every other input message
-/// names its file.
-fn study_relative(e: InputError, root: &Path) -> InputError {
-    let rel = |p: std::path::PathBuf| p.strip_prefix(root).map(Path::to_path_buf).unwrap_or(p);
-    match e {
-        InputError::BadTable { path, line, reason } => InputError::BadTable {
-            path: rel(path),
-            line,
-            reason,
-        },
-        InputError::Unreadable { path, reason } => InputError::Unreadable {
-            path: rel(path),
-            reason,
-        },
-        other => other,
+/// The rows of an optional table under the study folder, tallied in `files`.
+fn read_table<T: serde::de::DeserializeOwned>(
+    root: &Path,
+    rel: &str,
+    files: &mut Vec<FileSummary>,
+) -> Result<Option<Vec<T>>, InputError> {
+    let p = root.join(rel);
+    if !p.exists() {
+        return Ok(None);
     }
+    let rows: Vec<T> = read_rows(&p, Path::new(rel))?;
+    let mut summary = FileSummary::new(rel);
+    summary.rows = rows.len() as u64;
+    files.push(summary);
+    Ok(Some(rows))
+}
+
+/// Refuses a `factors/*.csv` the tool does not read (`known` lists the ones it does), so that
+/// a misspelt table name never leaves its defaults silently in force.
+pub fn refuse_unknown_factor_files(root: &Path, known: &[&str]) -> Result<(), InputError> {
+    let dir = root.join("factors");
+    let Ok(entries) = std::fs::read_dir(&dir) else {
+        return Ok(());
+    };
+    let mut names: Vec<String> = entries
+        .filter_map(|e| e.ok())
+        .map(|e| e.file_name().to_string_lossy().into_owned())
+        .filter(|n| n.to_ascii_lowercase().ends_with(".csv"))
+        .collect();
+    names.sort();
+    for n in names {
+        let rel = format!("factors/{n}");
+        if !known.contains(&rel.as_str()) {
+            return Err(InputError::BadTable {
+                path: PathBuf::from(&rel),
+                line: None,
+                reason: format!(
+                    "not a table roadtally reads (it reads {}); rename it to the table it is meant to replace, or move it out of factors/",
+                    known
+                        .iter()
+                        .map(|k| k.trim_start_matches("factors/"))
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                ),
+            });
+        }
+    }
+    Ok(())
 }
 
 fn table_error(path: &Path, line: Option<u64>, reason: impl Into<String>) -> InputError {
@@ -55,9 +96,14 @@ fn table_error(path: &Path, line: Option<u64>, reason: impl Into<String>) -> Inp
     }
 }
 
-fn read_rows<T: serde::de::DeserializeOwned>(path: &Path) -> Result<Vec<T>, InputError> {
+/// The rows of the table at `path`; errors name it `name` (relative to the study folder when
+/// it is a study's table).
+fn read_rows<T: serde::de::DeserializeOwned>(
+    path: &Path,
+    name: &Path,
+) -> Result<Vec<T>, InputError> {
     let file = std::fs::File::open(path).map_err(|e| InputError::Unreadable {
-        path: path.to_path_buf(),
+        path: name.to_path_buf(),
         reason: e.to_string(),
     })?;
     let mut reader = csv::ReaderBuilder::new()
@@ -67,7 +113,7 @@ fn read_rows<T: serde::de::DeserializeOwned>(path: &Path) -> Result<Vec<T>, Inpu
     for rec in reader.deserialize() {
         out.push(rec.map_err(|e| {
             table_error(
-                path,
+                name,
                 Some(e.position().map_or(0, |p| p.line())),
                 e.to_string(),
             )
@@ -82,24 +128,23 @@ fn whole_table(path: &Path) -> impl Fn(TableError) -> InputError + '_ {
 
 /// Reads a lane-distribution table (`lanes_per_direction,d_l_min,d_l_max,d_l_default,source`).
 pub fn load_lane_distribution(path: &Path) -> Result<LaneDistribution, InputError> {
-    LaneDistribution::from_rows(read_rows(path)?).map_err(whole_table(path))
+    LaneDistribution::from_rows(read_rows(path, path)?).map_err(whole_table(path))
 }
 
 /// Reads a truck-factor table
 /// (`class,description,flexible_esal_per_vehicle,rigid_esal_per_vehicle,source`).
 pub fn load_truck_factors(path: &Path) -> Result<LoadEquivalency, InputError> {
-    LoadEquivalency::from_rows(read_rows(path)?).map_err(whole_table(path))
+    LoadEquivalency::from_rows(read_rows(path, path)?).map_err(whole_table(path))
 }
 
 /// Reads an HCM default table (`facility,area,phf,heavy_share,source`).
 pub fn load_hcm_defaults(path: &Path) -> Result<HcmDefaults, InputError> {
-    HcmDefaults::from_rows(read_rows(path)?).map_err(whole_table(path))
+    HcmDefaults::from_rows(read_rows(path, path)?).map_err(whole_table(path))
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
-    use std::path::PathBuf;
 
     fn shipped(name: &str) -> PathBuf {
         Path::new(env!("CARGO_MANIFEST_DIR"))
@@ -188,7 +233,9 @@ mod tests {
         let dir = tempfile::tempdir().unwrap();
         std::fs::create_dir(dir.path().join("factors")).unwrap();
         std::fs::write(dir.path().join("factors/lane_distribution.csv"), "x\n1\n").unwrap();
-        let e = read_design_tables(dir.path()).unwrap_err().to_string();
+        let e = read_design_tables(dir.path(), &mut Vec::new())
+            .unwrap_err()
+            .to_string();
         assert!(e.starts_with("factors/lane_distribution.csv"), "{e}");
     }
 }

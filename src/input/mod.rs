@@ -51,7 +51,9 @@ pub fn read_study(root: &Path, progress: &Progress) -> Result<StudyData, InputEr
     read_study_with(root, &ReadOptions::default(), progress)
 }
 
-/// Reads the whole study folder.
+/// Reads the whole study folder: network, stations, history, toll, counts and every
+/// `factors/` table (group assignment and design tables; a `factors/*.csv` it does not know is
+/// refused), and takes the SHA-256 of each file read.
 pub fn read_study_with(
     root: &Path,
     options: &ReadOptions,
@@ -77,6 +79,23 @@ pub fn read_study_with(
         progress,
         options,
     )?;
+    let mut known = vec![extras::ASSIGNMENT_FILE];
+    known.extend(design_tables::DESIGN_TABLE_FILES);
+    design_tables::refuse_unknown_factor_files(root, &known)?;
+    let assignment = extras::read_group_assignment(root, &mut rejected, &mut files)?;
+    let design_tables = read_design_tables(root, &mut files)?;
+    // Checksums of exactly the files read, so `check` and the run manifest agree; one file
+    // per thread, as the count files are read.
+    {
+        use rayon::prelude::*;
+        files
+            .par_iter_mut()
+            .for_each(|f| f.sha256 = sha256_of(root, &f.file));
+    }
+    let settings_sha256 = root
+        .join(SETTINGS_FILE)
+        .exists()
+        .then(|| sha256_of(root, SETTINGS_FILE));
     Ok(StudyData {
         root: root.to_path_buf(),
         network,
@@ -84,6 +103,9 @@ pub fn read_study_with(
         counts,
         history,
         toll,
+        assignment,
+        design_tables,
+        settings_sha256,
         rejected,
         files,
     })

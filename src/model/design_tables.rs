@@ -13,11 +13,11 @@
 //! - **Truck factors** (ESALs per vehicle, flexible and rigid, FHWA classes 4–13 and the
 //!   HPMS groups single-unit 4–7 / combination 8–13): there is **no single published
 //!   source**; the defaults are common practice / from memory, of the right order only
-//!   (class 9 flexible about 1.0–1.5, references §5.3; WSDOT single units 0.40 and
+//!   (class 9 flexible about 1.0–1.5, tests/fixtures/REFERENCES.md §5.3; WSDOT single units 0.40 and
 //!   tractor-semitrailers 1.00, from memory, low-moderate confidence). **Replace them with
 //!   your agency's WIM-derived values.**
 //! - **HCM defaults** (PHF, heavy-vehicle share) by facility and area type, from memory of
-//!   the HCM 6th ed. (2016) and HCM 2010 (references §3.2): basic freeway / multilane
+//!   the HCM 6th ed. (2016) and HCM 2010 (tests/fixtures/REFERENCES.md §3.2): basic freeway / multilane
 //!   PHF 0.94 urban, 0.88 rural, heavy vehicles 5 % urban, 12 % rural; other roads
 //!   (signalised urban streets, rural two-lane highways) PHF 0.92 urban, 0.88 rural with
 //!   the same heavy-vehicle shares (the heavy shares for other roads are a project choice,
@@ -428,7 +428,7 @@ mod tests {
     use super::*;
     use approx::assert_relative_eq;
 
-    /// AASHTO 1993 Part II §2.1.3 lane-distribution ranges (references §5.1, from memory,
+    /// AASHTO 1993 Part II §2.1.3 lane-distribution ranges (tests/fixtures/REFERENCES.md §5.1, from memory,
     /// high confidence): 1 lane 100 %, 2 lanes 80–100 %, 3 lanes 60–80 %, 4 lanes 50–75 %.
     #[test]
     fn lane_distribution_matches_aashto_1993_table() {
@@ -450,7 +450,7 @@ mod tests {
         assert_relative_eq!(t.d_l(0), 1.0, max_relative = 1e-12);
     }
 
-    /// HCM defaults as quoted in references §3.2 (HCM 6th ed. 2016 / HCM 2010 Ch. 11, from
+    /// HCM defaults as quoted in tests/fixtures/REFERENCES.md §3.2 (HCM 6th ed. 2016 / HCM 2010 Ch. 11, from
     /// memory): basic freeway PHF 0.94 urban / 0.88 rural, heavy vehicles 5 % urban / 12 %
     /// rural; signalised intersections PHF 0.92.
     #[test]
@@ -477,10 +477,10 @@ mod tests {
         assert_eq!(Facility::of_functional_class(3), Facility::Other);
     }
 
-    /// The per-class truck factors are defaults, not published values (references §5.3: they
+    /// The per-class truck factors are defaults, not published values (tests/fixtures/REFERENCES.md §5.3: they
     /// vary by state and year). What can be checked: class 9 flexible lies in the typical
-    /// 1.0-1.5 ESAL/truck range (references §5.3, from memory), below the 2.38 of a fully
-    /// loaded 80-kip 3-S2 (references §5.3, computed from AASHTO 1993 App. D LEFs); each
+    /// 1.0-1.5 ESAL/truck range (tests/fixtures/REFERENCES.md §5.3, from memory), below the 2.38 of a fully
+    /// loaded 80-kip 3-S2 (tests/fixtures/REFERENCES.md §5.3, computed from AASHTO 1993 App. D LEFs); each
     /// class is marked common practice.
     #[test]
     fn truck_factor_defaults_are_marked_and_complete() {

@@ -5,6 +5,7 @@
 
 pub mod counts;
 pub mod design_tables;
+pub mod diagnostics;
 pub mod ids;
 pub mod network;
 pub mod records;
@@ -17,6 +18,7 @@ pub use design_tables::{
     DesignTables, Facility, HcmDefault, HcmDefaults, LaneDistribution, LaneDistributionRow,
     LoadEquivalency, TableError, TruckFactorRow,
 };
+pub use diagnostics::{DiagnosticCount, StageDiagnostics};
 pub use ids::{NodeId, SegmentId, StationId};
 pub use network::{Area, FunctionalClass, Network, Node, Segment};
 pub use records::{AssignmentRow, HistoryRecord, RejectedRow, TollRecord, VehicleGroup};

@@ -5,7 +5,11 @@ use std::path::PathBuf;
 
 use chrono::NaiveDate;
 
-use super::{DayCounts, HistoryRecord, Network, RejectedRow, StationKind, StationList, TollRecord};
+use super::design_tables::DesignTables;
+use super::{
+    AssignmentRow, DayCounts, HistoryRecord, Network, RejectedRow, StationKind, StationList,
+    TollRecord,
+};
 
 /// Rows read and rejected in one input file.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -16,6 +20,8 @@ pub struct FileSummary {
     pub rows: u64,
     /// Rows rejected.
     pub rejected: u64,
+    /// SHA-256 of the file's bytes (hex), taken when the study was read; empty until then.
+    pub sha256: String,
 }
 
 impl FileSummary {
@@ -25,6 +31,7 @@ impl FileSummary {
             file: file.to_string(),
             rows: 0,
             rejected: 0,
+            sha256: String::new(),
         }
     }
 }
@@ -44,9 +51,16 @@ pub struct StudyData {
     pub history: Vec<HistoryRecord>,
     /// Billing rows, when the study has a toll.csv.
     pub toll: Option<Vec<TollRecord>>,
+    /// The study's own group assignment (`factors/group_assignment.csv`), when it has one.
+    pub assignment: Option<Vec<AssignmentRow>>,
+    /// Design tables: the study's `factors/` copies where present, else the shipped defaults.
+    pub design_tables: DesignTables,
+    /// SHA-256 of `study.toml` (hex), when the study has one.
+    pub settings_sha256: Option<String>,
     /// Every row that was not used.
     pub rejected: Vec<RejectedRow>,
-    /// Per-file row tallies, in reading order.
+    /// Per-file row tallies and checksums, in reading order: every file read, `factors/`
+    /// tables included.
     pub files: Vec<FileSummary>,
 }
 

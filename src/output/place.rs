@@ -19,6 +19,7 @@ use super::OutputError;
 pub const OWN_FILES: &[&str] = &[
     "cross_validation.csv",
     "design_inputs.csv",
+    "diagnostics.csv",
     "factor_groups.csv",
     "factors.csv",
     "factors/group_assignment.csv",

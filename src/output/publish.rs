@@ -4,7 +4,7 @@
 use std::collections::BTreeMap;
 
 use super::report::{MapSegment, ReportData, Series};
-use super::table::{Cell, Format, Table};
+use super::table::{Cell, Format, Table, TableSpec};
 use super::tables::col;
 use super::xlsx::CoverSheet;
 use crate::design::stage::DesignRow;
@@ -17,80 +17,188 @@ pub const CAUTION: &str = "Every figure here is an estimate with a stated uncert
 Pavement and capacity design follows local codes and a licensed engineer's judgement; these figures are \
 inputs to that judgement, not a substitute for it.";
 
-/// `design_inputs.csv`: pavement and capacity inputs per segment.
+/// `design_inputs.csv`: pavement and capacity inputs per segment; where a segment has none,
+/// `pavement_note` / `capacity_note` say why (never a silently blank row).
 pub fn design_table(data: &StudyData, rows: &[DesignRow], design_years: u32) -> Table {
-    let mut t = Table::new(
+    use crate::design::{CapacityInputs, PavementInputs};
+    type Row<'r> = (&'r str, &'r DesignRow);
+    // A pavement or capacity figure, empty where the segment has no such inputs.
+    fn pav(f: fn(&PavementInputs) -> Cell) -> impl Fn(&Row) -> Cell {
+        move |r: &Row| r.1.pavement.as_ref().map_or(Cell::Empty, f)
+    }
+    fn cap(f: fn(&CapacityInputs) -> Cell) -> impl Fn(&Row) -> Cell {
+        move |r: &Row| r.1.capacity.as_ref().map_or(Cell::Empty, f)
+    }
+    let spec = TableSpec::<Row>::new(
         "design_inputs",
         "Pavement (AASHTO 1993) and capacity (HCM) inputs per segment",
-        vec![
-            col("segment_id", "", Format::Text),
-            col("heavy_aadt", "veh/day", Format::Integer),
-            col("heavy_aadt_lo95", "veh/day", Format::Integer),
-            col("heavy_aadt_hi95", "veh/day", Format::Integer),
-            col("single_unit_aadt", "veh/day", Format::Integer),
-            col("combination_aadt", "veh/day", Format::Integer),
-            col("directional_factor_dd", "factor", Format::Decimal(3)),
-            col("lanes_per_direction", "", Format::Integer),
-            col("lane_factor_dl", "factor", Format::Decimal(3)),
-            col("truck_factor", "ESAL/truck", Format::Decimal(3)),
-            col("annual_esal_design_lane", "ESAL/yr", Format::Integer),
-            col("annual_esal_lo95", "ESAL/yr", Format::Integer),
-            col("annual_esal_hi95", "ESAL/yr", Format::Integer),
-            col("growth_rate", "share/yr", Format::Share),
-            col("design_years", "yr", Format::Integer),
-            col("growth_factor", "factor", Format::Decimal(3)),
-            col("cumulative_esal", "ESAL", Format::Integer),
-            col("cumulative_esal_lo95", "ESAL", Format::Integer),
-            col("cumulative_esal_hi95", "ESAL", Format::Integer),
-            col("ddhv", "veh/h", Format::Integer),
-            col("ddhv_lo95", "veh/h", Format::Integer),
-            col("ddhv_hi95", "veh/h", Format::Integer),
-            col("peak_hour_factor", "factor", Format::Decimal(3)),
-            col("phf_source", "", Format::Text),
-            col("design_hour_heavy_share", "share", Format::Share),
-            col("heavy_share_source", "", Format::Text),
-        ],
-    );
-    for r in rows {
-        let mut row = vec![Cell::from(data.network.segments[r.segment].id.as_str())];
-        match &r.pavement {
-            Some(p) => row.extend([
-                Cell::from(p.heavy_aadt),
-                Cell::from(p.heavy_aadt_lo95),
-                Cell::from(p.heavy_aadt_hi95),
-                Cell::from(p.su_aadt),
-                Cell::from(p.cu_aadt),
-                Cell::from(p.d_d),
-                Cell::from(p.lanes_per_direction),
-                Cell::from(p.d_l),
-                Cell::from(p.truck_factor),
-                Cell::from(p.annual_esal_design_lane),
-                Cell::from(p.annual_esal_design_lane_lo95),
-                Cell::from(p.annual_esal_design_lane_hi95),
-                Cell::from(r.growth_rate),
-                Cell::from(design_years),
-                Cell::from(p.growth_factor),
-                Cell::from(p.cumulative_esal),
-                Cell::from(p.cumulative_esal_lo95),
-                Cell::from(p.cumulative_esal_hi95),
-            ]),
-            None => row.extend(std::iter::repeat_n(Cell::Empty, 18)),
-        }
-        match &r.capacity {
-            Some(c) => row.extend([
-                Cell::from(c.ddhv),
-                Cell::from(c.ddhv_lo95),
-                Cell::from(c.ddhv_hi95),
-                Cell::from(c.phf),
-                Cell::from(c.phf_source.as_str()),
-                Cell::from(c.design_hour_heavy_share),
-                Cell::from(c.hv_source.as_str()),
-            ]),
-            None => row.extend(std::iter::repeat_n(Cell::Empty, 7)),
-        }
-        t.push(row);
-    }
-    t
+    )
+    .col("segment_id", "", Format::Text, |r| Cell::from(r.0))
+    .col(
+        "heavy_aadt",
+        "veh/day",
+        Format::Integer,
+        pav(|p| Cell::from(p.heavy_aadt)),
+    )
+    .col(
+        "heavy_aadt_lo95",
+        "veh/day",
+        Format::Integer,
+        pav(|p| Cell::from(p.heavy_aadt_lo95)),
+    )
+    .col(
+        "heavy_aadt_hi95",
+        "veh/day",
+        Format::Integer,
+        pav(|p| Cell::from(p.heavy_aadt_hi95)),
+    )
+    .col(
+        "single_unit_aadt",
+        "veh/day",
+        Format::Integer,
+        pav(|p| Cell::from(p.su_aadt)),
+    )
+    .col(
+        "combination_aadt",
+        "veh/day",
+        Format::Integer,
+        pav(|p| Cell::from(p.cu_aadt)),
+    )
+    .col(
+        "directional_factor_dd",
+        "factor",
+        Format::Decimal(3),
+        pav(|p| Cell::from(p.d_d)),
+    )
+    .col(
+        "lanes_per_direction",
+        "",
+        Format::Integer,
+        pav(|p| Cell::from(p.lanes_per_direction)),
+    )
+    .col(
+        "lane_factor_dl",
+        "factor",
+        Format::Decimal(3),
+        pav(|p| Cell::from(p.d_l)),
+    )
+    .col(
+        "truck_factor",
+        "ESAL/truck",
+        Format::Decimal(3),
+        pav(|p| Cell::from(p.truck_factor)),
+    )
+    .col(
+        "annual_esal_design_lane",
+        "ESAL/yr",
+        Format::Integer,
+        pav(|p| Cell::from(p.annual_esal_design_lane)),
+    )
+    .col(
+        "annual_esal_lo95",
+        "ESAL/yr",
+        Format::Integer,
+        pav(|p| Cell::from(p.annual_esal_design_lane_lo95)),
+    )
+    .col(
+        "annual_esal_hi95",
+        "ESAL/yr",
+        Format::Integer,
+        pav(|p| Cell::from(p.annual_esal_design_lane_hi95)),
+    )
+    .col("growth_rate", "share/yr", Format::Share, |r| {
+        r.1.pavement
+            .as_ref()
+            .map_or(Cell::Empty, |_| Cell::from(r.1.growth_rate))
+    })
+    .col("design_years", "yr", Format::Integer, move |r| {
+        r.1.pavement
+            .as_ref()
+            .map_or(Cell::Empty, |_| Cell::from(design_years))
+    })
+    .col(
+        "growth_factor",
+        "factor",
+        Format::Decimal(3),
+        pav(|p| Cell::from(p.growth_factor)),
+    )
+    .col(
+        "cumulative_esal",
+        "ESAL",
+        Format::Integer,
+        pav(|p| Cell::from(p.cumulative_esal)),
+    )
+    .col(
+        "cumulative_esal_lo95",
+        "ESAL",
+        Format::Integer,
+        pav(|p| Cell::from(p.cumulative_esal_lo95)),
+    )
+    .col(
+        "cumulative_esal_hi95",
+        "ESAL",
+        Format::Integer,
+        pav(|p| Cell::from(p.cumulative_esal_hi95)),
+    )
+    .col(
+        "ddhv",
+        "veh/h",
+        Format::Integer,
+        cap(|c| Cell::from(c.ddhv)),
+    )
+    .col(
+        "ddhv_lo95",
+        "veh/h",
+        Format::Integer,
+        cap(|c| Cell::from(c.ddhv_lo95)),
+    )
+    .col(
+        "ddhv_hi95",
+        "veh/h",
+        Format::Integer,
+        cap(|c| Cell::from(c.ddhv_hi95)),
+    )
+    .col(
+        "peak_hour_factor",
+        "factor",
+        Format::Decimal(3),
+        cap(|c| Cell::from(c.phf)),
+    )
+    .col(
+        "phf_source",
+        "",
+        Format::Text,
+        cap(|c| Cell::from(c.phf_source.as_str())),
+    )
+    .col(
+        "design_hour_heavy_share",
+        "share",
+        Format::Share,
+        cap(|c| Cell::from(c.design_hour_heavy_share)),
+    )
+    .col(
+        "heavy_share_source",
+        "",
+        Format::Text,
+        cap(|c| Cell::from(c.hv_source.as_str())),
+    )
+    .col("pavement_note", "", Format::Text, |r| {
+        r.1.pavement
+            .as_ref()
+            .err()
+            .map_or(Cell::Empty, |g| Cell::from(g.to_string()))
+    })
+    .col("capacity_note", "", Format::Text, |r| {
+        r.1.capacity
+            .as_ref()
+            .err()
+            .map_or(Cell::Empty, |g| Cell::from(g.to_string()))
+    });
+    let records: Vec<Row> = rows
+        .iter()
+        .map(|r| (data.network.segments[r.segment].id.as_str(), r))
+        .collect();
+    spec.build(&records)
 }
 
 /// `network_totals.csv`.
@@ -292,19 +400,21 @@ pub fn report_data(r: &Results, tables: &BTreeMap<String, Table>) -> ReportData 
     }
 }
 
-/// `run_manifest.json`: tool version, settings and each input file's checksum and row tally,
-/// so a published figure can be traced. No clock time, so identical inputs give identical bytes.
+/// `run_manifest.json`: tool version, settings, each input file's checksum and row tally, and
+/// the run's alarms (the contract names them in the manifest), so a published figure can be
+/// traced. No clock time, so identical inputs give identical bytes.
 pub fn manifest(
     data: &StudyData,
     settings: &crate::config::Settings,
     year: i32,
     outputs: &[String],
+    alarms: &[String],
 ) -> Vec<u8> {
     let mut inputs = Vec::new();
     for f in &data.files {
         inputs.push(serde_json::json!({
             "file": f.file,
-            "sha256": crate::input::sha256_of(&data.root, &f.file),
+            "sha256": f.sha256,
             "rows": f.rows,
             "rejected": f.rejected,
         }));
@@ -314,8 +424,13 @@ pub fn manifest(
         "version": env!("CARGO_PKG_VERSION"),
         "study_year": year,
         "settings": settings,
+        "settings_file": data.settings_sha256.as_ref().map(|h| serde_json::json!({
+            "file": crate::input::SETTINGS_FILE,
+            "sha256": h,
+        })),
         "inputs": inputs,
         "outputs": outputs,
+        "alarms": alarms,
     });
     let mut out = serde_json::to_vec_pretty(&doc).expect("json");
     out.push(b'\n');

@@ -149,6 +149,74 @@ impl Table {
     }
 }
 
+/// A column declared together with the function that gives its cell for one record, so a
+/// table's header and its rows cannot drift apart.
+pub struct ColumnDef<'a, R> {
+    /// The column.
+    pub column: Column,
+    value: Box<dyn Fn(&R) -> Cell + 'a>,
+}
+
+/// A table declared column by column (see [`ColumnDef`]); [`TableSpec::build`] gives every
+/// row exactly one cell per column by construction.
+///
+/// ```
+/// use roadtally::output::table::{Cell, Format, TableSpec};
+/// let t = TableSpec::<(&str, f64)>::new("t", "Example")
+///     .col("id", "", Format::Text, |r| Cell::from(r.0))
+///     .col("aadt", "veh/day", Format::Integer, |r| Cell::from(r.1))
+///     .build(&[("S1", 1200.0), ("S2", 800.0)]);
+/// assert_eq!(t.columns.len(), 2);
+/// assert_eq!(t.rows[1], vec![Cell::from("S2"), Cell::Num(800.0)]);
+/// ```
+pub struct TableSpec<'a, R> {
+    name: String,
+    title: String,
+    defs: Vec<ColumnDef<'a, R>>,
+}
+
+impl<'a, R> TableSpec<'a, R> {
+    /// A table with no columns yet.
+    pub fn new(name: &str, title: &str) -> TableSpec<'a, R> {
+        TableSpec {
+            name: name.to_string(),
+            title: title.to_string(),
+            defs: Vec::new(),
+        }
+    }
+
+    /// Adds a column and the cell it takes from each record.
+    pub fn col(
+        mut self,
+        name: &str,
+        unit: &'static str,
+        format: Format,
+        value: impl Fn(&R) -> Cell + 'a,
+    ) -> TableSpec<'a, R> {
+        self.defs.push(ColumnDef {
+            column: Column::new(name, unit, format),
+            value: Box::new(value),
+        });
+        self
+    }
+
+    /// The table of `records`, one row each.
+    pub fn build<'r>(&self, records: impl IntoIterator<Item = &'r R>) -> Table
+    where
+        R: 'r,
+    {
+        Table {
+            name: self.name.clone(),
+            title: self.title.clone(),
+            columns: self.defs.iter().map(|d| d.column.clone()).collect(),
+            rows: records
+                .into_iter()
+                .map(|r| self.defs.iter().map(|d| (d.value)(r)).collect())
+                .collect(),
+        }
+    }
+}
+
 /// The text of a cell as CSV writes it: fixed decimals, no exponent, so outputs are
 /// byte-identical across runs and platforms.
 pub fn cell_text(cell: &Cell, format: Format) -> String {

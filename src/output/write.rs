@@ -26,13 +26,18 @@ pub struct RunReport {
     pub cross_validation: Table,
     /// Network daily VKT with its 95 % interval (segments independent).
     pub network_vkt: Option<(f64, f64, f64)>,
+    /// Per stage: (stage, units fallen back, units handled, unit), for the summary.
+    pub fallbacks: Vec<(&'static str, usize, usize, &'static str)>,
+    /// Segments without pavement inputs and without capacity inputs (the reasons are in
+    /// design_inputs.csv).
+    pub design_gaps: [usize; 2],
 }
 
 /// Writes every output of a computed run into `out` and returns what was written.
 pub fn write_all(r: &Results, settings: &Settings, out: &Path) -> Result<RunReport, OutputError> {
     let check = check_report(&r.data, Some(r.year));
     let data = &r.data;
-    let seg_table = tables::segment_statistics(data, &r.segments);
+    let seg_table = tables::segment_statistics(data, &r.segments, &r.spatial);
     let calibration = tables::calibration_table(&r.calibration);
     let cross_validation = tables::cross_validation(data, &r.spatial);
     let all = [
@@ -49,6 +54,7 @@ pub fn write_all(r: &Results, settings: &Settings, out: &Path) -> Result<RunRepo
         tables::qc_log(data, &r.qc),
         tables::network_findings(&r.qc),
         tables::rejected_rows(&data.rejected),
+        tables::diagnostics(&r.diagnostics()),
     ];
     let mut all = all.to_vec();
     if let Some(toll) = &r.toll {
@@ -92,7 +98,7 @@ pub fn write_all(r: &Results, settings: &Settings, out: &Path) -> Result<RunRepo
     };
     all.push(publish::design_table(
         data,
-        &r.design,
+        &r.design.rows,
         settings.design.design_years,
     ));
     all.push(publish::totals_table(&r.totals, days));
@@ -115,7 +121,17 @@ pub fn write_all(r: &Results, settings: &Settings, out: &Path) -> Result<RunRepo
     for s in &r.segments {
         basis_counts[s.basis as usize] += 1;
     }
+    let design_gaps = [
+        r.design.rows.iter().filter(|d| d.pavement.is_err()).count(),
+        r.design.rows.iter().filter(|d| d.capacity.is_err()).count(),
+    ];
     Ok(RunReport {
+        design_gaps,
+        fallbacks: r
+            .diagnostics()
+            .iter()
+            .map(|d| (d.stage, d.fallback_units, d.total, d.unit))
+            .collect(),
         check,
         qc: r.qc.summary.clone(),
         written,
@@ -175,7 +191,8 @@ fn write_set(
         .iter()
         .map(|p| input::rejects::relative_name(dir, p))
         .collect();
-    let manifest = publish::manifest(data, settings, r.year, &names);
+    let alarms = crate::pipeline::alarms(r, settings);
+    let manifest = publish::manifest(data, settings, r.year, &names, &alarms);
     written.push(super::write_atomic(dir, "run_manifest.json", &manifest)?);
     Ok(written)
 }

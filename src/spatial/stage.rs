@@ -37,7 +37,7 @@ use super::{
     empirical_variogram, fit_variogram, CovarianceModel, Kriger, KrigingData, KrigingParams,
     LogNormalEstimate, ModelKind, SpatialError, Target, VariogramFit, Z_95,
 };
-use crate::model::{Area, Network};
+use crate::model::{Area, Network, StageDiagnostics};
 
 /// Settings of the spatial stage (`[spatial]` in study.toml).
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
@@ -52,7 +52,19 @@ pub struct SpatialParams {
     /// Ridge penalty on the regression coefficients (guards against classes absent from the
     /// counts). Default 1e-3.
     pub ridge: f64,
+    /// Counted segments from which the drift regression uses the full model (one term per
+    /// functional class 2-7 and the speed limit: 12 coefficients) instead of the reduced one
+    /// (arterial / collector-local, 6 coefficients). Default 40: 40 counts leave 28 residual
+    /// degrees of freedom for 12 coefficients, more than three counts per coefficient, so a
+    /// class dummy rarely rests on one or two counts (a rule of thumb, common practice in
+    /// regression: several observations per parameter; not a published threshold). The
+    /// leave-one-out folds apply the same rule to their own count, so a study of exactly this
+    /// many counts validates the reduced model.
+    pub full_model_min_counts: usize,
 }
+
+/// Coefficients of the full drift model (see [`SpatialParams::full_model_min_counts`]).
+pub const FULL_MODEL_TERMS: usize = 12;
 
 impl Default for SpatialParams {
     fn default() -> Self {
@@ -61,6 +73,7 @@ impl Default for SpatialParams {
             route_reach_km: 30.0,
             variogram_lags: 12,
             ridge: 1e-3,
+            full_model_min_counts: 40,
         }
     }
 }
@@ -157,6 +170,9 @@ pub struct SpatialOutput {
     pub residual_var: f64,
     /// Leave-one-out folds.
     pub cv: Vec<CvPoint>,
+    /// Uncounted segments estimated, and those whose estimate fell back from kriging with
+    /// external drift (by fallback step).
+    pub diagnostics: StageDiagnostics,
 }
 
 /// Regression terms of a segment.
@@ -266,10 +282,10 @@ fn regression(
     routes: &RouteNeighbours,
     sf: &[f64; 8],
     exclude: Option<usize>,
-    ridge: f64,
+    params: &SpatialParams,
 ) -> Option<Fit> {
     let kept: Vec<&Observation> = obs.iter().filter(|o| Some(o.segment) != exclude).collect();
-    let full = kept.len() >= 40;
+    let full = kept.len() >= params.full_model_min_counts;
     let x: Vec<Vec<f64>> = kept
         .iter()
         .map(|o| {
@@ -283,7 +299,7 @@ fn regression(
         })
         .collect();
     let y: Vec<f64> = kept.iter().map(|o| o.log_aadt).collect();
-    let beta = fit_ols(&x, &y, ridge)?;
+    let beta = fit_ols(&x, &y, params.ridge)?;
     let p = beta.len();
     let rss: f64 = x
         .iter()
@@ -355,6 +371,22 @@ fn fit_model(
     }
 }
 
+/// Short name of a kriging fallback step, for the diagnostics.
+fn fallback_kind(f: &super::Fallback) -> &'static str {
+    match f {
+        super::Fallback::DroppedDriftTerms(_) => {
+            "kriging: drift term dropped from the local system"
+        }
+        super::Fallback::MergedCoincident { .. } => "kriging: coincident neighbours merged",
+        super::Fallback::OrdinaryKriging { .. } => {
+            "kriging: ordinary kriging (drift system failed)"
+        }
+        super::Fallback::InverseVarianceMean { .. } => {
+            "kriging: inverse-variance mean (kriging systems failed)"
+        }
+    }
+}
+
 fn fallback_text(p: &super::Prediction) -> String {
     p.fallbacks
         .iter()
@@ -380,6 +412,7 @@ pub fn run(input: &SpatialInput, params: &SpatialParams) -> Result<SpatialOutput
     let n_seg = net.segments.len();
     let mut out = SpatialOutput {
         estimates: vec![None; n_seg],
+        diagnostics: StageDiagnostics::new("spatial", "uncounted segments"),
         ..SpatialOutput::default()
     };
     if obs.len() < 3 {
@@ -392,6 +425,8 @@ pub fn run(input: &SpatialInput, params: &SpatialParams) -> Result<SpatialOutput
             let counted: Vec<usize> = obs.iter().map(|o| o.segment).collect();
             for (s, e) in out.estimates.iter_mut().enumerate() {
                 if !counted.contains(&s) {
+                    out.diagnostics
+                        .record([("mean of fewer than three counts", true)]);
                     *e = Some(SegmentEstimate {
                         aadt: Interval::from_log(m, v),
                         log_mean: m,
@@ -417,7 +452,7 @@ pub fn run(input: &SpatialInput, params: &SpatialParams) -> Result<SpatialOutput
     }
     let routes = RouteNeighbours::build(net, &counted, params.route_reach_km);
     let sf = speed_fill(net);
-    let fit = regression(net, obs, &y_by_seg, &routes, &sf, None, params.ridge)
+    let fit = regression(net, obs, &y_by_seg, &routes, &sf, None, params)
         .ok_or(SpatialError::DriftUnsolvable { counted: obs.len() })?;
     out.coefficients = term_names(fit.full)
         .into_iter()
@@ -459,6 +494,14 @@ pub fn run(input: &SpatialInput, params: &SpatialParams) -> Result<SpatialOutput
         })
         .collect();
     for (&s, p) in targets.iter().zip(kriger.predict_many(&tgt)) {
+        match &p {
+            Ok(p) => out
+                .diagnostics
+                .record(p.fallbacks.iter().map(|f| (fallback_kind(f), true))),
+            Err(_) => out
+                .diagnostics
+                .record([("regression only: kriging could not solve", true)]),
+        }
         let est = match p {
             Ok(p) => SegmentEstimate {
                 aadt: Interval::from_log(p.value, p.variance_with_nugget),
@@ -506,7 +549,7 @@ fn cv_fold(
 ) -> Option<CvPoint> {
     let target = obs[j];
     let excl = Some(target.segment);
-    let fit = regression(net, obs, y_by_seg, routes, sf, excl, params.ridge)?;
+    let fit = regression(net, obs, y_by_seg, routes, sf, excl, params)?;
     let others: Vec<&Observation> = obs.iter().filter(|o| o.segment != target.segment).collect();
     let data = KrigingData {
         xy: others.iter().map(|o| mids[o.segment]).collect(),
@@ -557,4 +600,16 @@ fn cv_fold(
         regression,
         class_mean,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The settings check bounds `full_model_min_counts` by the full model's size.
+    #[test]
+    fn the_full_model_has_the_documented_number_of_terms() {
+        assert_eq!(term_names(true).len(), FULL_MODEL_TERMS);
+        assert!(term_names(false).len() < FULL_MODEL_TERMS);
+    }
 }

@@ -435,7 +435,7 @@ mod tests {
         );
         assert_relative_eq!(s.semivariance(12.0), 2.5, max_relative = 1e-14);
         // Gaussian: PyKrige range 10.1036 = 7φ/4 with φ = 10/√3 ⇔ our practical range 10
-        // (references.md §7.1).
+        // (tests/fixtures/REFERENCES.md §7.1).
         let g = CovarianceModel::new(ModelKind::Gaussian, 1.0, 10.0, 0.0).unwrap();
         let py_range = 10.0 * 7.0 / (4.0 * 3f64.sqrt());
         assert_relative_eq!(

@@ -25,7 +25,7 @@
 //!
 //! # References
 //! - FHWA *Traffic Monitoring Guide* (TMG) 2013/2016/2022, ch. 3: factor definitions
-//!   (`F_ij = AADT / MADW_ij`, from memory; references §2.1).
+//!   (`F_ij = AADT / MADW_ij`, from memory; tests/fixtures/REFERENCES.md §2.1).
 //! - `data-contract.md`: `toll.csv`, `toll_reconciliation.csv`; vehicle groups light 1–3,
 //!   heavy 4–13.
 

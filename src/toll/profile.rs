@@ -37,7 +37,7 @@
 //! 0.02 (common practice); day-to-day variation 0.10 (common practice: daily volumes vary
 //! by about 10 % around their day-of-week-by-month mean); factor log-sd 0.05 (common
 //! practice: group factors carry a few % to 10 % error, TMG precision target ±10 % at 95 %,
-//! references §2.6, from memory). Pass the stage's own figures where it has them (the
+//! tests/fixtures/REFERENCES.md §2.6, from memory). Pass the stage's own figures where it has them (the
 //! factor stage's per-cell CVs and pooled day CV).
 //!
 //! With these defaults a calendar month on a segment with a permanent counter that measured
@@ -49,7 +49,7 @@
 //! standard deviations (dimensionless).
 //!
 //! # References
-//! - FHWA *Traffic Monitoring Guide* ch. 3 (factor definitions, from memory; references §2.1).
+//! - FHWA *Traffic Monitoring Guide* ch. 3 (factor definitions, from memory; tests/fixtures/REFERENCES.md §2.1).
 //! - First-order (delta-method) propagation of relative errors: common practice.
 
 use std::collections::BTreeMap;

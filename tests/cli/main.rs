@@ -7,6 +7,7 @@ mod generated;
 mod integrity;
 mod publish;
 mod reading;
+mod traces;
 
 use std::path::{Path, PathBuf};
 use std::process::Output;
@@ -102,4 +103,27 @@ pub fn hourly_rows(station: &str, dir: &str, hours: std::ops::Range<u32>, vehicl
     hours
         .map(|h| format!("{station},{dir},2025-06-03T{h:02}:00:00-04:00,60,{vehicles}\n"))
         .collect()
+}
+
+/// Copies a folder tree (a study) to `to`.
+pub fn copy_dir(from: &Path, to: &Path) {
+    std::fs::create_dir_all(to).unwrap();
+    for e in std::fs::read_dir(from).unwrap() {
+        let e = e.unwrap();
+        let target = to.join(e.file_name());
+        if e.file_type().unwrap().is_dir() {
+            copy_dir(&e.path(), &target);
+        } else {
+            std::fs::copy(e.path(), &target).unwrap();
+        }
+    }
+}
+
+/// A temporary copy of the committed demo study at `<tmp>/study`.
+pub fn demo_copy() -> (tempfile::TempDir, PathBuf) {
+    let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/small");
+    let dir = tempfile::tempdir().expect("temp dir");
+    let study = dir.path().join("study");
+    copy_dir(&demo, &study);
+    (dir, study)
 }

@@ -240,19 +240,6 @@ fn degenerate_settings_and_years_are_named_never_blank() {
     }
 }
 
-fn copy_dir(from: &Path, to: &Path) {
-    std::fs::create_dir_all(to).unwrap();
-    for e in std::fs::read_dir(from).unwrap() {
-        let e = e.unwrap();
-        let target = to.join(e.file_name());
-        if e.file_type().unwrap().is_dir() {
-            copy_dir(&e.path(), &target);
-        } else {
-            std::fs::copy(e.path(), &target).unwrap();
-        }
-    }
-}
-
 /// Every two-way permanent counter of the demo has a `rev` row, and fwd + rev matches the
 /// two-way AADT: within 1 %, not exactly, because each direction averages its own accepted
 /// days (a day quality control rejects in one direction still counts in the other).

@@ -56,9 +56,9 @@
 //! Vehicles per day; factors are dimensionless.
 //!
 //! # References
-//! - FHWA TMG 2022, App. L (AASHTO method; read per `references.md` §1.1).
-//! - FHWA TMG 2016 ch. 3 §3.2 (calendar-weighted method; from memory, `references.md` §1.3).
-//! - TMG 2013/2016 ch. 3 factor definitions (from memory, `references.md` §2.1).
+//! - FHWA TMG 2022, App. L (AASHTO method; read per `tests/fixtures/REFERENCES.md` §1.1).
+//! - FHWA TMG 2016 ch. 3 §3.2 (calendar-weighted method; from memory, `tests/fixtures/REFERENCES.md` §1.3).
+//! - TMG 2013/2016 ch. 3 factor definitions (from memory, `tests/fixtures/REFERENCES.md` §2.1).
 //! - AASHTO *Guidelines for Traffic Data Programs*, 2009 (from memory).
 //! - Imputation and verdict order: project decision (common practice in spirit).
 

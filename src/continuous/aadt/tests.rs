@@ -45,7 +45,7 @@ fn rule() -> SufficiencyRule {
 
 #[test]
 fn refs_1_5_complete_year() {
-    // Source: references.md §1.5 / §11 #1 (computed; TMG 2022 App. L formula).
+    // Source: tests/fixtures/REFERENCES.md §1.5 / §11 #1 (computed; TMG 2022 App. L formula).
     // The printed figures carry 3 decimals, so they are compared at 1e-7 relative
     // (half a unit of the last digit is 5.5e-8 of 9144); the exact identities
     // (AASHTO = 64000/7, calendar-weighted = simple) are checked at 1e-9 / 1e-12.
@@ -61,7 +61,7 @@ fn refs_1_5_complete_year() {
 
 #[test]
 fn refs_1_5_july_first_week_only() {
-    // Source: references.md §1.5 / §11 #2 (computed).
+    // Source: tests/fixtures/REFERENCES.md §1.5 / §11 #2 (computed).
     let days = synthetic_year(|d| d.month() != 7 || d.day() <= 7);
     assert_eq!(days.len(), 341);
     let r = compute_aadt(2023, &days, &rule()).unwrap();
@@ -73,7 +73,7 @@ fn refs_1_5_july_first_week_only() {
 
 #[test]
 fn refs_1_5_q1_weekends_thinned() {
-    // Source: references.md §1.5 / §11 #2: Jan–Mar keep only the first Sat and Sun.
+    // Source: tests/fixtures/REFERENCES.md §1.5 / §11 #2: Jan–Mar keep only the first Sat and Sun.
     let days = synthetic_year(|d| {
         let (i, j) = cell_of(d);
         !(j < 3 && i >= 5 && d.day() > 7)
@@ -87,7 +87,7 @@ fn refs_1_5_q1_weekends_thinned() {
 
 #[test]
 fn refs_2_4_factors() {
-    // Source: references.md §2.4 / §11 #3 (TMG factor definitions, from memory; computed).
+    // Source: tests/fixtures/REFERENCES.md §2.4 / §11 #3 (TMG factor definitions, from memory; computed).
     let r = compute_aadt(2023, &synthetic_year(|_| true), &rule()).unwrap();
     let f = r.factors().unwrap();
     assert_relative_eq!(f.monthly[0], 1.25, max_relative = 1e-4);
@@ -310,7 +310,7 @@ fn synthetic_hours(keep: impl Fn(NaiveDate, u8) -> bool) -> Vec<crate::continuou
 
 #[test]
 fn calendar_weighted_hourly_form_matches_daily_and_uses_partial_days() {
-    // references.md §1.3: with complete days the hourly form equals the daily form
+    // tests/fixtures/REFERENCES.md §1.3: with complete days the hourly form equals the daily form
     // (9144.110, §1.5); partial days (here: every 4th day of July loses its evening
     // hours) still enter hour by hour and leave the result unchanged.
     let full = calendar_weighted_hourly(2023, &synthetic_hours(|_, _| true))

@@ -2,7 +2,7 @@
 
 use super::col;
 use crate::model::{RejectedRow, StudyData};
-use crate::output::table::{Cell, Column, Format, Table};
+use crate::output::table::{Cell, Column, Format, Table, TableSpec};
 use crate::qc::QcOutput;
 
 /// `rejected_rows.csv`, as the data contract lists its columns.
@@ -82,4 +82,52 @@ pub fn network_findings(qc: &QcOutput) -> Table {
         ]);
     }
     t
+}
+
+/// `diagnostics.csv`: per stage, the units it handled, how many fell back from its method, and
+/// each kind of fallback or reported default with its count (one row per kind; a stage
+/// without any has one row with kind `none`).
+pub fn diagnostics(stages: &[&crate::model::StageDiagnostics]) -> Table {
+    type Row<'r> = (
+        &'r crate::model::StageDiagnostics,
+        Option<&'r crate::model::DiagnosticCount>,
+    );
+    let records: Vec<Row> = stages
+        .iter()
+        .flat_map(|d| {
+            let items: Vec<Row> = d.items.iter().map(|i| (*d, Some(i))).collect();
+            if items.is_empty() {
+                vec![(*d, None)]
+            } else {
+                items
+            }
+        })
+        .collect();
+    TableSpec::<Row>::new(
+        "diagnostics",
+        "Fallbacks and defaults per stage (the fallback alarm compares fallback_share with max_fallback_share)",
+    )
+    .col("stage", "", Format::Text, |r| Cell::from(r.0.stage))
+    .col("unit", "", Format::Text, |r| Cell::from(r.0.unit))
+    .col("units", "", Format::Integer, |r| Cell::from(r.0.total))
+    .col("fallback_units", "", Format::Integer, |r| {
+        Cell::from(r.0.fallback_units)
+    })
+    .col("fallback_share", "share", Format::Share, |r| {
+        Cell::from(r.0.fallback_share())
+    })
+    .col("kind", "", Format::Text, |r| {
+        Cell::from(r.1.map_or("none", |i| i.kind.as_str()))
+    })
+    .col("count", "", Format::Integer, |r| {
+        Cell::from(r.1.map_or(0, |i| i.count))
+    })
+    .col("is_fallback", "", Format::Text, |r| {
+        Cell::from(match r.1 {
+            Some(i) if i.fallback => "yes",
+            Some(_) => "no",
+            None => "",
+        })
+    })
+    .build(&records)
 }
