@@ -22,12 +22,13 @@ use std::path::{Path, PathBuf};
 
 use chrono::{Datelike, Duration, NaiveDate, Weekday};
 use rand::seq::SliceRandom;
-use rand::Rng;
+use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rand_distr::{Binomial, Distribution, LogNormal, Poisson, StandardNormal};
 
 use super::clock::{self, Interval};
 use super::faults::{self, BadRow, FaultKind, FaultRow, Rec};
+use super::gaps::{self, GapRow};
 use super::network::{Network, Segment};
 use super::patterns::{self, Pattern};
 use super::sink::CsvSink;
@@ -387,6 +388,8 @@ pub(crate) struct CountsOutcome {
     pub rows: u64,
     pub faults: Vec<FaultRow>,
     pub bad_rows: Vec<BadRow>,
+    /// Missing hours of short counts.
+    pub gaps: Vec<GapRow>,
 }
 
 /// Writes `counts/continuous_<year>.csv[.gz]`: every continuous station, all year.
@@ -459,6 +462,7 @@ pub(crate) fn write_continuous(
         rows,
         faults: fault_rows,
         bad_rows: Vec::new(),
+        gaps: Vec::new(),
     })
 }
 
@@ -559,6 +563,8 @@ pub(crate) fn write_short(
     let mut buf = RowBuf::new();
     let mut fault_rows = Vec::new();
     let mut bad_rows = Vec::new();
+    let mut gap_rows = Vec::new();
+    let mut gap_rng = ChaCha8Rng::seed_from_u64(params.seed ^ gaps::STREAM);
     let bad_targets = if params.bad_rows {
         pick_bad_targets(rng, &plan.short)
     } else {
@@ -571,6 +577,15 @@ pub(crate) fn write_short(
             clock::local_midnight_utc(st.start_date) + Duration::hours(st.start_hour as i64);
         let intervals = clock::intervals_from(start, st.hours, 60);
         let mut recs = draw_short(rng, &noise, seg, pattern, st, &intervals, params.year);
+        if let Some((first, hours, kind)) = gaps::plan(&mut gap_rng, intervals.len()) {
+            gaps::remove(&mut recs, first, hours);
+            gap_rows.push(GapRow {
+                station_id: st.id.clone(),
+                first: intervals[first].start.clone(),
+                hours,
+                kind,
+            });
+        }
         let per_direction = matches!(st.kind, ShortKind::PerDirection | ShortKind::Classified);
         let target = faults::ShortTarget {
             station: &st.id,
@@ -601,6 +616,7 @@ pub(crate) fn write_short(
         rows,
         faults: fault_rows,
         bad_rows,
+        gaps: gap_rows,
     })
 }
 

@@ -31,10 +31,19 @@ use super::{DemoError, DemoParams};
 const HISTORY_YEARS: i32 = 5;
 
 pub(crate) fn write_study_toml(out: &Path, params: &DemoParams) -> Result<PathBuf, DemoError> {
+    let holidays: Vec<String> = super::patterns::HOLIDAYS
+        .iter()
+        .map(|(m, d)| format!("\"{m:02}-{d:02}\""))
+        .collect();
     let text = format!(
         "# Invented demo study from roadtally's demo generator (seed {}, size {:?}); \
-         every place, road and figure is made up.\nyear = {}\n",
-        params.seed, params.size, params.year
+         every place, road and figure is made up.\nyear = {}\n\n[qc]\n\
+         # The invented region's public holidays (month-day): New Year, Founders' Day, \
+         Lantern Day, Harvest Day, Midwinter Day.\nholidays = [{}]\n",
+        params.seed,
+        params.size,
+        params.year,
+        holidays.join(", ")
     );
     sink::write_text(out.join("study.toml"), &text)
 }

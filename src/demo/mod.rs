@@ -20,7 +20,8 @@
 //! 3. `counts` draws hourly (or 15-minute) counts at the stations: expected volume x
 //!    lognormal day noise x lognormal interval noise, then a Poisson draw; class counts by a
 //!    multinomial draw over the segment's class mix. `faults` then corrupts a few
-//!    station-days (stuck, dead, spikes, level shifts, partial days, swapped directions).
+//!    station-days (stuck, dead, spikes, level shifts, partial days, swapped directions);
+//!    `gaps` drops a few hours from some short counts.
 //! 4. `extras` writes history, toll billing and the truth tables.
 //!
 //! Everything is drawn from one `ChaCha8Rng` seeded by [`DemoParams::seed`]; no wall clock is
@@ -43,6 +44,7 @@ mod clock;
 mod counts;
 mod extras;
 mod faults;
+mod gaps;
 mod network;
 mod patterns;
 mod sink;
@@ -262,6 +264,7 @@ pub(crate) fn generate_scaled(
     fault_rows.extend(short.faults);
     files.push(faults::write_faults(out, &fault_rows)?);
     files.push(faults::write_bad_rows(out, &short.bad_rows)?);
+    files.push(gaps::write(out, &short.gaps)?);
     files.push(extras::write_segment_truth(out, &net, &pats)?);
     files.extend(extras::write_pattern_truth(out, &pats, params.year)?);
 

@@ -6,7 +6,8 @@
 //! 1. Every direction-day is turned into an hourly series over the slots of its local day
 //!    (23, 24 or 25 hours; see [`DayCounts::day_hours`]). The rules run on vehicles, or on
 //!    axle hits for axle-only days. A day whose quarter-hour coverage is below
-//!    [`QcParams::min_coverage`] is `incomplete` and rejected; it takes no further part.
+//!    [`QcParams::min_coverage`] is `incomplete` and rejected (flagged on a short count, see
+//!    below); it takes no further part in the station rules.
 //! 2. From the complete 24-hour days a typical profile is built per station x direction x
 //!    measure x day type x clock hour: each day is scaled to the median daily total and the
 //!    median and MAD (x 1.4826) of every clock hour are taken. The day type is the weekday when
@@ -21,7 +22,7 @@
 //!
 //! | rule | tests | action |
 //! |---|---|---|
-//! | `incomplete` | quarter-hour coverage below `min_coverage` | rejected |
+//! | `incomplete` | quarter-hour coverage below `min_coverage` | rejected (short counts: flagged) |
 //! | `flat_run` | the same non-zero value in consecutive hours, less likely than `flat_run_max_probability` under Poisson noise | rejected |
 //! | `zero_run` | consecutive zero hours where >= `zero_run_min_expected` vehicles are expected (half the typical volume) | rejected |
 //! | `spike` | one hour >= `spike_min_ratio` x expected and `spike_min_z` deviations above it (at 00:00 and 23:00 also `spike_min_neighbour_ratio` x the hour across midnight) | rejected |
@@ -56,8 +57,10 @@
 //! class findings are only looked for on days no structural rule rejected.
 //!
 //! Days are local calendar days, as the data contract defines them: a short count that starts
-//! at 10:00 on Tuesday and ends at 10:00 on Thursday gives one complete day (Wednesday); its
-//! partial first and last days are rejected as `incomplete`.
+//! at 10:00 on Tuesday and ends at 10:00 on Thursday gives one complete day (Wednesday). On a
+//! short count, `incomplete` is flagged, not rejected: its partial first and last days and a
+//! day with missing hours inside the count keep their counted hours, which the short-count
+//! rules ([`short`]) check and expansion joins into 24-hour periods, filling short gaps.
 //!
 //! A whole-day drop or rise of one direction only (a fault from the first hour on) has no
 //! step within the day; it is flagged by `daily_deviation` and `directional_imbalance`, not
@@ -346,6 +349,7 @@ pub fn run(input: &QcInput, params: &QcParams) -> QcOutput {
                 area: seg.area,
                 oneway: seg.oneway,
                 rejected: rejected_of(&per_station[si].0),
+                calendar: &calendar,
             };
             Some(short::check(&input, &reference, params, &reference_params))
         })
@@ -472,11 +476,10 @@ fn check_station_in(
             let s = series(day, dd);
             if s.coverage + 1e-9 < p.min_coverage {
                 let n = s.values.len();
-                let edge = if short {
-                    count_edge(days, *date, d)
-                } else {
-                    None
-                };
+                // On a short count every counted hour is kept: the partial first and last
+                // days by design, and a day with missing hours inside the count, whose short
+                // gaps expansion fills (a longer gap leaves that stretch out of its periods).
+                let edge = short.then(|| count_edge(days, *date, d).unwrap_or("gapped"));
                 let detail = format!(
                         "{:.1} % of the {n} hours of the local day covered by {} figures (needs {:.1} %)",
                         s.coverage * 100.0,
@@ -490,6 +493,9 @@ fn check_station_in(
                     rule: QcRule::Incomplete,
                     action: if edge.is_some() { QcAction::Flagged } else { QcAction::Rejected },
                     detail: match edge {
+                        Some("gapped") => format!(
+                            "short count with missing hours (short gaps filled, counted hours used in 24-hour periods): {detail}"
+                        ),
                         Some(which) => format!(
                             "partial {which} day of a short count (hours used in 24-hour periods): {detail}"
                         ),
