@@ -14,6 +14,7 @@
 //!
 //! Vehicles per day (AADT), vehicles per billing period (toll), fractions (shares, growth).
 
+use super::disturbances::Plan;
 use std::path::{Path, PathBuf};
 
 use chrono::{Datelike, NaiveDate};
@@ -100,9 +101,11 @@ pub(crate) fn write_toll(
     out: &Path,
     net: &Network,
     pats: &[Pattern],
+    disturb: &Plan,
     year: i32,
 ) -> Result<Vec<PathBuf>, DemoError> {
     let days = days_of_year(year);
+    let hours: Vec<u32> = (0..24).collect();
     let noise = Normal::new(0.0, 0.01).expect("finite sd");
     let mut rows = Vec::new();
     for &s in &net.tolled {
@@ -118,7 +121,9 @@ pub(crate) fn write_toll(
                 .collect();
             let total: f64 = in_month
                 .iter()
-                .map(|&d| seg.aadt * pattern.day_level(d, norm))
+                .map(|&d| {
+                    seg.aadt * pattern.day_level(d, norm) * disturb.day_share(s, pattern, d, &hours)
+                })
                 .sum();
             for (group, share) in [("light", 1.0 - heavy), ("heavy", heavy)] {
                 let true_vehicles = (total * share).round();
@@ -184,6 +189,8 @@ pub(crate) fn write_segment_truth(
     out: &Path,
     net: &Network,
     pats: &[Pattern],
+    disturb: &Plan,
+    year: i32,
 ) -> Result<PathBuf, DemoError> {
     let mut sink = CsvSink::create(
         out.join("truth/segment_truth.csv"),
@@ -197,12 +204,14 @@ pub(crate) fn write_segment_truth(
             "growth_rate",
         ],
     )?;
-    for s in &net.segments {
+    for (i, s) in net.segments.iter().enumerate() {
         let p = &pats[s.pattern];
+        // The traffic that happened: disturbances included.
+        let aadt = s.aadt * disturb.annual_effect(i, p, year);
         sink.row([
             s.id.clone(),
             p.name.to_string(),
-            format!("{}", s.aadt),
+            format!("{aadt}"),
             format!("{:.5}", s.heavy_share()),
             format!("{:.5}", s.single_unit_share()),
             format!("{:.5}", s.combination_share()),

@@ -315,7 +315,8 @@ fn true_aadt_is_realistic_by_class() {
         let aadt: f64 = t["true_aadt"].parse().unwrap();
         match s["functional_class"].as_str() {
             "1" => assert!((20_000.0..=90_000.0).contains(&aadt)),
-            "7" => assert!((200.0..=2_000.0).contains(&aadt)),
+            // The drawn AADT is 200-2,000; roadworks and storms take a few percent off.
+            "7" => assert!((180.0..=2_000.0).contains(&aadt), "{aadt}"),
             _ => assert!(aadt > 0.0),
         }
         let h: f64 = t["true_heavy_share"].parse().unwrap();
