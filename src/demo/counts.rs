@@ -425,6 +425,7 @@ fn note_disturbed(
 }
 
 /// Writes `counts/continuous_<year>.csv[.gz]`: every continuous station, all year.
+#[allow(clippy::too_many_arguments)]
 pub(crate) fn write_continuous(
     rng: &mut ChaCha8Rng,
     out: &Path,
