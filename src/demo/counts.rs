@@ -22,12 +22,14 @@ use std::path::{Path, PathBuf};
 
 use chrono::{Datelike, Duration, NaiveDate, Weekday};
 use rand::seq::SliceRandom;
-use rand::Rng;
+use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rand_distr::{Binomial, Distribution, LogNormal, Poisson, StandardNormal};
 
 use super::clock::{self, Interval};
+use super::disturbances::{DisturbedDay, Plan};
 use super::faults::{self, BadRow, FaultKind, FaultRow, Rec};
+use super::gaps::{self, GapRow};
 use super::network::{Network, Segment};
 use super::patterns::{self, Pattern};
 use super::sink::CsvSink;
@@ -294,7 +296,8 @@ fn split_classes(rng: &mut ChaCha8Rng, n: u32, mix: &[f64; 13]) -> [u32; 13] {
     out
 }
 
-/// Draws the records of one local day (or part of a day) for both directions.
+/// Draws the records of one local day (or part of a day) for both directions; `hourly`
+/// holds the disturbances' multiplier of each clock hour 0..=23.
 #[allow(clippy::too_many_arguments)]
 fn draw_day(
     rng: &mut ChaCha8Rng,
@@ -302,6 +305,7 @@ fn draw_day(
     seg: &Segment,
     pattern: &Pattern,
     day_mean: f64,
+    hourly: &[f64],
     intervals: &[(usize, &Interval)],
     minutes: u32,
     classified: bool,
@@ -312,7 +316,7 @@ fn draw_day(
     for &(index, iv) in intervals {
         let dt = patterns::day_type(iv.date);
         let share = pattern.hourly[dt as usize][iv.hour as usize] * minutes as f64 / 60.0;
-        let mean = day_mean * day_factor * share;
+        let mean = day_mean * day_factor * share * hourly[iv.hour as usize];
         let s_fwd = if seg.oneway {
             1.0
         } else {
@@ -387,15 +391,48 @@ pub(crate) struct CountsOutcome {
     pub rows: u64,
     pub faults: Vec<FaultRow>,
     pub bad_rows: Vec<BadRow>,
+    /// Missing hours of short counts.
+    pub gaps: Vec<GapRow>,
+    /// Station-days touched by a disturbance.
+    pub disturbed: Vec<DisturbedDay>,
+}
+
+/// Clock hours 0..=23, the hours a day's disturbance multipliers are asked for.
+const CLOCK_HOURS: [u32; 24] = {
+    let mut h = [0u32; 24];
+    let mut i = 0;
+    while i < 24 {
+        h[i] = i as u32;
+        i += 1;
+    }
+    h
+};
+
+/// Records the disturbance kinds of one station-day.
+fn note_disturbed(
+    out: &mut Vec<DisturbedDay>,
+    station: &str,
+    date: NaiveDate,
+    kinds: &[super::disturbances::Kind],
+) {
+    for &kind in kinds {
+        out.push(DisturbedDay {
+            station_id: station.to_string(),
+            date,
+            kind,
+        });
+    }
 }
 
 /// Writes `counts/continuous_<year>.csv[.gz]`: every continuous station, all year.
+#[allow(clippy::too_many_arguments)]
 pub(crate) fn write_continuous(
     rng: &mut ChaCha8Rng,
     out: &Path,
     net: &Network,
     pats: &[Pattern],
     plan: &StationPlan,
+    disturb: &Plan,
     params: &DemoParams,
     scale: &Scale,
 ) -> Result<CountsOutcome, DemoError> {
@@ -416,6 +453,7 @@ pub(crate) fn write_continuous(
     let noise = Noise::new();
     let mut buf = RowBuf::new();
     let mut fault_rows = Vec::new();
+    let mut disturbed = Vec::new();
     for st in &plan.continuous {
         let seg = &net.segments[st.segment];
         let pattern = &pats[seg.pattern];
@@ -426,12 +464,15 @@ pub(crate) fn write_continuous(
             let date = day[0].date;
             let indexed: Vec<(usize, &Interval)> = day.iter().enumerate().collect();
             let day_mean = seg.aadt * pattern.day_level(date, norm);
+            let effect = disturb.day(st.segment, date, &CLOCK_HOURS);
+            note_disturbed(&mut disturbed, &st.id, date, &effect.kinds);
             let mut recs = draw_day(
                 rng,
                 &noise,
                 seg,
                 pattern,
                 day_mean,
+                &effect.hourly,
                 &indexed,
                 st.minutes,
                 st.classified,
@@ -459,6 +500,8 @@ pub(crate) fn write_continuous(
         rows,
         faults: fault_rows,
         bad_rows: Vec::new(),
+        gaps: Vec::new(),
+        disturbed,
     })
 }
 
@@ -467,7 +510,8 @@ fn header_refs(header: &[String]) -> Vec<&str> {
 }
 
 /// Picks the faulty days of one continuous station: 2-4 % of its days, never a DST
-/// changeover day (tests check those days' record counts).
+/// changeover day (tests check those days' record counts); swapped directions on working
+/// days only.
 fn plan_faults(
     rng: &mut ChaCha8Rng,
     days: &[Vec<Interval>],
@@ -484,7 +528,10 @@ fn plan_faults(
     picked
         .into_iter()
         .map(|d| {
-            let kind = if can_swap && rng.gen_bool(0.15) {
+            // A swap is only a fault that shows on a working day: a commuter road's weekend
+            // is symmetric, so exchanged directions change nothing there (as for short counts).
+            let working = patterns::day_type(days[d][0].date) == patterns::DayType::Weekday;
+            let kind = if can_swap && working && rng.gen_bool(0.15) {
                 FaultKind::SwappedDirections
             } else {
                 FaultKind::random_single(rng)
@@ -550,6 +597,7 @@ pub(crate) fn write_short(
     net: &Network,
     pats: &[Pattern],
     plan: &StationPlan,
+    disturb: &Plan,
     params: &DemoParams,
 ) -> Result<CountsOutcome, DemoError> {
     const FILE: &str = "counts/short_counts.csv";
@@ -559,6 +607,9 @@ pub(crate) fn write_short(
     let mut buf = RowBuf::new();
     let mut fault_rows = Vec::new();
     let mut bad_rows = Vec::new();
+    let mut gap_rows = Vec::new();
+    let mut disturbed = Vec::new();
+    let mut gap_rng = ChaCha8Rng::seed_from_u64(params.seed ^ gaps::STREAM);
     let bad_targets = if params.bad_rows {
         pick_bad_targets(rng, &plan.short)
     } else {
@@ -570,7 +621,25 @@ pub(crate) fn write_short(
         let start =
             clock::local_midnight_utc(st.start_date) + Duration::hours(st.start_hour as i64);
         let intervals = clock::intervals_from(start, st.hours, 60);
-        let mut recs = draw_short(rng, &noise, seg, pattern, st, &intervals, params.year);
+        let mut recs = draw_short(
+            rng,
+            &noise,
+            (seg, pattern),
+            st,
+            &intervals,
+            disturb,
+            params.year,
+            &mut disturbed,
+        );
+        if let Some((first, hours, kind)) = gaps::plan(&mut gap_rng, intervals.len()) {
+            gaps::remove(&mut recs, first, hours);
+            gap_rows.push(GapRow {
+                station_id: st.id.clone(),
+                first: intervals[first].start.clone(),
+                hours,
+                kind,
+            });
+        }
         let per_direction = matches!(st.kind, ShortKind::PerDirection | ShortKind::Classified);
         let target = faults::ShortTarget {
             station: &st.id,
@@ -601,6 +670,8 @@ pub(crate) fn write_short(
         rows,
         faults: fault_rows,
         bad_rows,
+        gaps: gap_rows,
+        disturbed,
     })
 }
 
@@ -690,14 +761,16 @@ fn write_bad(
 
 /// Draws a short count's records (both directions, or the `both` total in `[0]`); faults
 /// are injected afterwards by [`faults::inject_short`].
+#[allow(clippy::too_many_arguments)]
 fn draw_short(
     rng: &mut ChaCha8Rng,
     noise: &Noise,
-    seg: &Segment,
-    pattern: &Pattern,
+    (seg, pattern): (&Segment, &Pattern),
     st: &ShortStation,
     intervals: &[Interval],
+    disturb: &Plan,
     study_year: i32,
+    disturbed: &mut Vec<DisturbedDay>,
 ) -> [Vec<Rec>; 2] {
     let aadt = seg.aadt / (1.0 + pattern.growth).powi(study_year - st.year);
     let norm = pattern.norm(st.year);
@@ -712,7 +785,19 @@ fn draw_short(
             .filter(|(_, iv)| iv.date == date)
             .collect();
         let day_mean = aadt * pattern.day_level(date, norm);
-        let mut recs = draw_day(rng, noise, seg, pattern, day_mean, &indexed, 60, classified);
+        let effect = disturb.day(st.segment, date, &CLOCK_HOURS);
+        note_disturbed(disturbed, &st.id, date, &effect.kinds);
+        let mut recs = draw_day(
+            rng,
+            noise,
+            seg,
+            pattern,
+            day_mean,
+            &effect.hourly,
+            &indexed,
+            60,
+            classified,
+        );
         if matches!(st.kind, ShortKind::Both | ShortKind::Axles) {
             recs = [merge_directions(&recs), Vec::new()];
         }

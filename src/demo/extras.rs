@@ -14,6 +14,7 @@
 //!
 //! Vehicles per day (AADT), vehicles per billing period (toll), fractions (shares, growth).
 
+use super::disturbances::Plan;
 use std::path::{Path, PathBuf};
 
 use chrono::{Datelike, NaiveDate};
@@ -31,10 +32,19 @@ use super::{DemoError, DemoParams};
 const HISTORY_YEARS: i32 = 5;
 
 pub(crate) fn write_study_toml(out: &Path, params: &DemoParams) -> Result<PathBuf, DemoError> {
+    let holidays: Vec<String> = super::patterns::HOLIDAYS
+        .iter()
+        .map(|(m, d)| format!("\"{m:02}-{d:02}\""))
+        .collect();
     let text = format!(
         "# Invented demo study from roadtally's demo generator (seed {}, size {:?}); \
-         every place, road and figure is made up.\nyear = {}\n",
-        params.seed, params.size, params.year
+         every place, road and figure is made up.\nyear = {}\n\n[qc]\n\
+         # The invented region's public holidays (month-day): New Year, Founders' Day, \
+         Lantern Day, Harvest Day, Midwinter Day.\nholidays = [{}]\n",
+        params.seed,
+        params.size,
+        params.year,
+        holidays.join(", ")
     );
     sink::write_text(out.join("study.toml"), &text)
 }
@@ -91,9 +101,11 @@ pub(crate) fn write_toll(
     out: &Path,
     net: &Network,
     pats: &[Pattern],
+    disturb: &Plan,
     year: i32,
 ) -> Result<Vec<PathBuf>, DemoError> {
     let days = days_of_year(year);
+    let hours: Vec<u32> = (0..24).collect();
     let noise = Normal::new(0.0, 0.01).expect("finite sd");
     let mut rows = Vec::new();
     for &s in &net.tolled {
@@ -109,7 +121,9 @@ pub(crate) fn write_toll(
                 .collect();
             let total: f64 = in_month
                 .iter()
-                .map(|&d| seg.aadt * pattern.day_level(d, norm))
+                .map(|&d| {
+                    seg.aadt * pattern.day_level(d, norm) * disturb.day_share(s, pattern, d, &hours)
+                })
                 .sum();
             for (group, share) in [("light", 1.0 - heavy), ("heavy", heavy)] {
                 let true_vehicles = (total * share).round();
@@ -175,6 +189,8 @@ pub(crate) fn write_segment_truth(
     out: &Path,
     net: &Network,
     pats: &[Pattern],
+    disturb: &Plan,
+    year: i32,
 ) -> Result<PathBuf, DemoError> {
     let mut sink = CsvSink::create(
         out.join("truth/segment_truth.csv"),
@@ -188,12 +204,14 @@ pub(crate) fn write_segment_truth(
             "growth_rate",
         ],
     )?;
-    for s in &net.segments {
+    for (i, s) in net.segments.iter().enumerate() {
         let p = &pats[s.pattern];
+        // The traffic that happened: disturbances included.
+        let aadt = s.aadt * disturb.annual_effect(i, p, year);
         sink.row([
             s.id.clone(),
             p.name.to_string(),
-            format!("{}", s.aadt),
+            format!("{aadt}"),
             format!("{:.5}", s.heavy_share()),
             format!("{:.5}", s.single_unit_share()),
             format!("{:.5}", s.combination_share()),

@@ -20,7 +20,9 @@
 //! 3. `counts` draws hourly (or 15-minute) counts at the stations: expected volume x
 //!    lognormal day noise x lognormal interval noise, then a Poisson draw; class counts by a
 //!    multinomial draw over the segment's class mix. `faults` then corrupts a few
-//!    station-days (stuck, dead, spikes, level shifts, partial days, swapped directions).
+//!    station-days (stuck, dead, spikes, level shifts, partial days, swapped directions);
+//!    `gaps` drops a few hours from some short counts; `disturbances` adds real traffic that
+//!    is not a fault (event evenings, storms, roadworks, holiday eves, bridge days).
 //! 4. `extras` writes history, toll billing and the truth tables.
 //!
 //! Everything is drawn from one `ChaCha8Rng` seeded by [`DemoParams::seed`]; no wall clock is
@@ -41,8 +43,10 @@
 
 mod clock;
 mod counts;
+mod disturbances;
 mod extras;
 mod faults;
+mod gaps;
 mod network;
 mod patterns;
 mod sink;
@@ -243,9 +247,18 @@ pub(crate) fn generate_scaled(
     files.extend(network::write(out, &net)?);
     files.push(counts::write_stations(out, &plan)?);
 
-    let cont = counts::write_continuous(&mut rng, out, &net, &pats, &plan, params, &scale)?;
+    // Disturbances on their own random stream: the volumes' draws stay where they were.
+    let counters: Vec<usize> = plan.continuous.iter().map(|c| c.segment).collect();
+    let disturb = disturbances::Plan::draw(
+        &mut ChaCha8Rng::seed_from_u64(params.seed ^ disturbances::STREAM),
+        &net,
+        params.year,
+        &counters,
+    );
+    let cont =
+        counts::write_continuous(&mut rng, out, &net, &pats, &plan, &disturb, params, &scale)?;
     files.push(cont.path.clone());
-    let short = counts::write_short(&mut rng, out, &net, &pats, &plan, params)?;
+    let short = counts::write_short(&mut rng, out, &net, &pats, &plan, &disturb, params)?;
     files.push(short.path.clone());
 
     files.push(extras::write_history(
@@ -255,14 +268,24 @@ pub(crate) fn generate_scaled(
         &plan,
         params.year,
     )?);
-    let toll = extras::write_toll(&mut rng, out, &net, &pats, params.year)?;
+    let toll = extras::write_toll(&mut rng, out, &net, &pats, &disturb, params.year)?;
     files.extend(toll);
 
     let mut fault_rows = cont.faults;
     fault_rows.extend(short.faults);
     files.push(faults::write_faults(out, &fault_rows)?);
     files.push(faults::write_bad_rows(out, &short.bad_rows)?);
-    files.push(extras::write_segment_truth(out, &net, &pats)?);
+    files.push(gaps::write(out, &short.gaps)?);
+    files.push(extras::write_segment_truth(
+        out,
+        &net,
+        &pats,
+        &disturb,
+        params.year,
+    )?);
+    let mut disturbed = cont.disturbed;
+    disturbed.extend(short.disturbed);
+    files.extend(disturbances::write(out, &disturb, params.year, &disturbed)?);
     files.extend(extras::write_pattern_truth(out, &pats, params.year)?);
 
     Ok(DemoSummary {

@@ -162,6 +162,11 @@ impl Network {
         self.nodes.len() - 1
     }
 
+    /// Town centres and radii, plane km.
+    pub(crate) fn town_centres(&self) -> &[(f64, f64, f64)] {
+        &self.towns
+    }
+
     fn is_urban(&self, x: f64, y: f64) -> bool {
         self.towns
             .iter()

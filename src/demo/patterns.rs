@@ -18,7 +18,7 @@ use chrono::{Datelike, NaiveDate};
 
 /// Invented fixed-date holidays (month, day): New Year, Founders' Day, Lantern Day, Harvest
 /// Day, Midwinter Day.
-const HOLIDAYS: [(u32, u32); 5] = [(1, 1), (4, 23), (8, 11), (10, 2), (12, 25)];
+pub(crate) const HOLIDAYS: [(u32, u32); 5] = [(1, 1), (4, 23), (8, 11), (10, 2), (12, 25)];
 
 /// Index of the 24-hour profile used on a day.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]

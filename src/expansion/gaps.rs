@@ -20,12 +20,18 @@
 //! with each day's hours under that day's factor (see [`super::CountPeriod`]); hours left
 //! after the last full period are not used.
 //!
+//! An hour with one direction counted and the other rejected or missing (a per-direction
+//! count on a two-way road) is no gap: its two-way volume is that direction's volume over
+//! its share of the two-way volume (see [`super::stage`]), marked
+//! [`Slot::one_direction`], and it counts towards no filled-hours limit.
+//!
 //! # Interval
 //! The filled volume `F_p` of period *p* (of volume `V_p`) is taken to have relative error
 //! `cv_fill` (the filled hours of one period as fully correlated, which is conservative), so
 //! the period's log error gains `(F_p / V_p) · cv_fill`; periods are independent, so the mean
 //! of *n* periods gains the variance `Σ_p (F_p / V_p)² · cv_fill² / n²`
-//! ([`fill_variance`]).
+//! ([`part_variance`]). The volume `O_p` estimated from one direction adds
+//! `Σ_p (O_p / V_p)² · cv_dir² / n²` in the same way.
 //!
 //! # Units
 //! Volumes are two-way vehicles (or axle hits) per clock hour.
@@ -46,6 +52,8 @@ pub struct Slot {
     pub hour: usize,
     /// Two-way volume, `None` where not counted (or left out by quality control).
     pub volume: Option<f64>,
+    /// Whether `volume` was estimated from one direction (the other rejected or missing).
+    pub one_direction: bool,
 }
 
 /// How a missing hour was filled.
@@ -201,6 +209,7 @@ fn period_starts(hours: &FilledHours, max_filled_per_period: usize) -> Vec<usize
 fn period_at(slots: &[Slot], hours: &FilledHours, start: usize) -> CountPeriod {
     let mut volume = 0.0;
     let mut filled = 0.0;
+    let mut one_direction = 0.0;
     let mut parts: Vec<(NaiveDate, f64)> = Vec::new();
     let window = start..start + 24;
     for ((slot, v), src) in slots[window.clone()]
@@ -212,6 +221,8 @@ fn period_at(slots: &[Slot], hours: &FilledHours, start: usize) -> CountPeriod {
         volume += v;
         if *src != FillSource::Counted {
             filled += v;
+        } else if slot.one_direction {
+            one_direction += v;
         }
         match parts.last_mut() {
             Some((d, w)) if *d == slot.date => *w += v,
@@ -235,6 +246,7 @@ fn period_at(slots: &[Slot], hours: &FilledHours, start: usize) -> CountPeriod {
         volume,
         parts,
         filled,
+        one_direction,
     }
 }
 
@@ -258,6 +270,8 @@ pub struct GapOutcome {
     pub filled_from_own_days: usize,
     /// Counted hours over all runs.
     pub counted_hours: usize,
+    /// Hours inside the periods estimated from one direction.
+    pub one_direction_hours: usize,
     /// Longest run of counted or filled hours.
     pub longest_run: usize,
 }
@@ -283,6 +297,7 @@ pub fn periods_of(runs: &[Vec<Slot>], profile: Option<&[f64; 24]>, rule: GapRule
             out.longest_run = out.longest_run.max(len);
         }
         for i in period_starts(&hours, rule.max_filled_per_period) {
+            out.one_direction_hours += slots[i..i + 24].iter().filter(|s| s.one_direction).count();
             for src in &hours.source[i..i + 24] {
                 match src {
                     FillSource::Counted | FillSource::Open => {}
@@ -299,8 +314,10 @@ pub fn periods_of(runs: &[Vec<Slot>], profile: Option<&[f64; 24]>, rule: GapRule
     out
 }
 
-/// Variance added to ln AADT by the filled share of the periods (module docs).
-pub fn fill_variance(periods: &[CountPeriod], cv_fill: f64) -> f64 {
+/// Variance added to ln AADT by an estimated part of the periods' volume, `part(p)` of
+/// relative error `cv` (the filled hours, or the hours estimated from one direction; module
+/// docs).
+pub fn part_variance(periods: &[CountPeriod], part: impl Fn(&CountPeriod) -> f64, cv: f64) -> f64 {
     let n = periods.len() as f64;
     if n == 0.0 {
         return 0.0;
@@ -308,7 +325,7 @@ pub fn fill_variance(periods: &[CountPeriod], cv_fill: f64) -> f64 {
     periods
         .iter()
         .filter(|p| p.volume > 0.0)
-        .map(|p| (p.filled / p.volume * cv_fill).powi(2))
+        .map(|p| (part(p) / p.volume * cv).powi(2))
         .sum::<f64>()
         / (n * n)
 }
@@ -332,6 +349,7 @@ mod tests {
                     date: d0 + chrono::Duration::days((t / 24) as i64),
                     hour: t % 24,
                     volume: Some(100.0 + (t % 24) as f64),
+                    one_direction: false,
                 }
             })
             .collect()
@@ -347,7 +365,7 @@ mod tests {
         assert_eq!(g.periods.len(), 2);
         assert_eq!((g.filled_hours, g.filled_from_own_days), (1, 1));
         assert!((g.periods[1].filled - 106.0).abs() < 1e-9);
-        assert!(fill_variance(&g.periods, 0.25) > 0.0);
+        assert!(part_variance(&g.periods, |p| p.filled, 0.25) > 0.0);
     }
 
     /// Behaviour: a count from 12:00 on day 1 to 12:00 on day 3 gives two straddling

@@ -34,7 +34,9 @@
 //!   s_a   coefficient of variation of the axle-correction factor (axle counts only)
 //! ```
 //! plus, for a count with filled hours, `Σ_p (F_p / V_p)² · cv_fill² / n²` (the filled share
-//! F_p / V_p of each period p times the error of a filled hour, [`gaps::fill_variance`]),
+//! F_p / V_p of each period p times the error of a filled hour, [`gaps::part_variance`]),
+//! and likewise `Σ_p (O_p / V_p)² · cv_dir² / n²` for the volume O_p estimated from one
+//! direction where the other was rejected or missing,
 //! and the 95 % interval is `AADT · exp(±1.96 · c · s)`, where the scale *c* is calibrated by
 //! `roadtally calibrate`, which draws simulated short counts from every permanent counter and
 //! expands them with factors computed without that counter (see [`calibration`]).
@@ -92,6 +94,12 @@ pub struct ExpansionParams {
     /// 10-20 % from day to day at one site (common practice), an estimate from the count's
     /// other day or the group's profile adds to that).
     pub filled_hour_cv: f64,
+    /// Relative error (coefficient of variation) of a two-way volume estimated from one
+    /// direction over its share, carried into the interval. Default 0.10 (project choice:
+    /// over a whole day the two directions of a two-way road carry close to half each, and
+    /// the share comes from the count's own hours where both directions were counted; peak
+    /// hours alone can split 60/40 or more, common practice).
+    pub one_direction_cv: f64,
 }
 
 impl Default for ExpansionParams {
@@ -107,6 +115,7 @@ impl Default for ExpansionParams {
             max_gap_hours: 2,
             max_filled_hours_per_period: 3,
             filled_hour_cv: 0.25,
+            one_direction_cv: 0.10,
         }
     }
 }
@@ -138,6 +147,9 @@ pub struct CountPeriod {
     pub parts: Vec<(NaiveDate, f64)>,
     /// Part of `volume` in filled (estimated, not counted) hours.
     pub filled: f64,
+    /// Part of `volume` in hours estimated from one direction (the other rejected or
+    /// missing): that direction's volume over its share of the two-way volume.
+    pub one_direction: f64,
 }
 
 impl CountPeriod {
@@ -147,6 +159,7 @@ impl CountPeriod {
             volume,
             parts: vec![(date, 1.0)],
             filled: 0.0,
+            one_direction: 0.0,
         }
     }
 }
@@ -182,6 +195,7 @@ pub fn periods(hours: &[CountHour]) -> Vec<CountPeriod> {
                 volume,
                 parts,
                 filled: 0.0,
+                one_direction: 0.0,
             });
             run.clear();
         }
@@ -281,7 +295,8 @@ pub fn expand(
         + s_d * s_d / n
         + growth.log_sd * growth.log_sd
         + acf_cv * acf_cv
-        + gaps::fill_variance(&count.periods, params.filled_hour_cv);
+        + gaps::part_variance(&count.periods, |p| p.filled, params.filled_hour_cv)
+        + gaps::part_variance(&count.periods, |p| p.one_direction, params.one_direction_cv);
     Ok(Expanded {
         aadt,
         log_sd: var.sqrt(),

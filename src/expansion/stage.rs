@@ -20,7 +20,7 @@ use super::{
     combine, expand_for_year, Expanded, ExpansionParams, GroupFactors, Growth, Measure, ShortCount,
 };
 use crate::factors::stage::FactorOutput;
-use crate::model::views::{complete_classes, two_way_hour, DayFilter, Measured};
+use crate::model::views::{complete_classes, direction_hour, two_way_hour, DayFilter, Measured};
 use crate::model::{CountStore, Direction, Network, StationKind, StationList};
 
 /// Coefficient of variation given to the factor of an unfactored count (a study without any
@@ -48,6 +48,8 @@ pub struct ExpandedCount {
     pub filled_from_own_days: usize,
     /// Two-way hours counted (used in a period or not).
     pub counted_hours: usize,
+    /// Of the hours used, those whose two-way volume was estimated from one direction.
+    pub one_direction_hours: usize,
     /// `vehicles` or `axles`.
     pub measure: &'static str,
     /// Classified.
@@ -189,6 +191,8 @@ pub fn run(input: &ExpansionInput, params: &ExpansionParams) -> ExpansionOutput 
             let mut peak_shares: Vec<f64> = Vec::new();
             let mut peak_ds: Vec<f64> = Vec::new();
             let mut classified = false;
+            let shares =
+                DirectionShares::of(&days, oneway, measure, |d, x| filter.excluded(s, d, x));
             for d in &days {
                 let excl = |x: Direction| filter.excluded(s, d.date, x);
                 if prev.and_then(|p| p.succ_opt()) != Some(d.date) {
@@ -212,10 +216,16 @@ pub fn run(input: &ExpansionInput, params: &ExpansionParams) -> ExpansionOutput 
                         }
                         None => complete = false,
                     }
+                    let single = if hour.is_none() && !oneway {
+                        shares.two_way(d, h, k, measure, &excl)
+                    } else {
+                        None
+                    };
                     run.push(Slot {
                         date: d.date,
                         hour: k,
-                        volume: hour.map(|x| x.0 as f64),
+                        volume: hour.map(|x| x.0 as f64).or(single),
+                        one_direction: single.is_some(),
                     });
                 }
                 let total: u64 = day_hours.iter().map(|x| x.0).sum();
@@ -363,6 +373,7 @@ pub fn run(input: &ExpansionInput, params: &ExpansionParams) -> ExpansionOutput 
                         filled_hours: gapped.filled_hours,
                         filled_from_own_days: gapped.filled_from_own_days,
                         counted_hours: gapped.counted_hours,
+                        one_direction_hours: gapped.one_direction_hours,
                         measure: if matches!(measure, Measured::Axles) {
                             "axles"
                         } else {
@@ -436,6 +447,78 @@ fn diagnostics(out: &ExpansionOutput, factors: &FactorOutput) -> crate::model::S
         d.record([("not expanded: the segment takes the spatial estimate", true)]);
     }
     d
+}
+
+/// The share of each direction in the two-way volume of a per-direction count, by clock hour,
+/// from the count's own hours where both directions were counted and accepted.
+///
+/// An hour with only one direction gets the two-way volume `v_d / share_d(k)`. The share of
+/// clock hour *k* is taken when the count has at least [`MIN_SHARE_VOLUME`] vehicles at that
+/// hour in both directions together, else the share over all its two-direction hours, else
+/// one half (a two-way road carries close to half its daily traffic each way; common
+/// practice). Shares are bounded to 0.1..0.9 so that a near-empty direction never multiplies
+/// the volume more than tenfold.
+struct DirectionShares {
+    /// (fwd, rev) volume per clock hour (0..=24) over the two-direction hours.
+    by_hour: [(f64, f64); 25],
+}
+
+/// Vehicles behind an hourly direction share (both directions together).
+const MIN_SHARE_VOLUME: f64 = 50.0;
+
+impl DirectionShares {
+    fn of(
+        days: &[&crate::model::DayCounts],
+        oneway: bool,
+        m: Measured,
+        excluded: impl Fn(NaiveDate, Direction) -> bool,
+    ) -> DirectionShares {
+        let mut by_hour = [(0.0, 0.0); 25];
+        if !oneway {
+            for d in days {
+                let excl = |x: Direction| excluded(d.date, x);
+                for (k, h) in d.day_hours().enumerate() {
+                    if let Some((_, Some(f), Some(r))) = two_way_hour(d, h, false, m, &excl) {
+                        by_hour[k.min(24)].0 += f as f64;
+                        by_hour[k.min(24)].1 += r as f64;
+                    }
+                }
+            }
+        }
+        DirectionShares { by_hour }
+    }
+
+    /// Share of `fwd` at clock hour `k` (see the type's docs).
+    fn fwd_share(&self, k: usize) -> f64 {
+        let (f, r) = self.by_hour[k.min(24)];
+        let (tf, tr) = self
+            .by_hour
+            .iter()
+            .fold((0.0, 0.0), |a, b| (a.0 + b.0, a.1 + b.1));
+        let share = if f + r >= MIN_SHARE_VOLUME {
+            f / (f + r)
+        } else if tf + tr >= MIN_SHARE_VOLUME {
+            tf / (tf + tr)
+        } else {
+            0.5
+        };
+        share.clamp(0.1, 0.9)
+    }
+
+    /// Two-way volume of hour slot `h` (clock hour `k`) from the one direction counted.
+    fn two_way(
+        &self,
+        day: &crate::model::DayCounts,
+        h: usize,
+        k: usize,
+        m: Measured,
+        excluded: &dyn Fn(Direction) -> bool,
+    ) -> Option<f64> {
+        let (d, v) = direction_hour(day, h, m, excluded)?;
+        let fwd = self.fwd_share(k);
+        let share = if d == Direction::Fwd { fwd } else { 1.0 - fwd };
+        Some(v as f64 / share)
+    }
 }
 
 /// What went on in a count, to say why it gave no 24-hour period.

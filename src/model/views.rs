@@ -53,6 +53,30 @@ pub fn two_way_hour(
     }
 }
 
+/// The one direction counted in hour slot `h` of a two-way road's day, when the other is
+/// rejected or missing and there is no `both` record: (direction, volume).
+pub fn direction_hour(
+    day: &DayCounts,
+    h: usize,
+    m: Measured,
+    excluded: &dyn Fn(Direction) -> bool,
+) -> Option<(Direction, u64)> {
+    let get = |d: Direction| {
+        if excluded(d) {
+            return None;
+        }
+        day.dir(d).and_then(|dd| hour_value(dd, h, m))
+    };
+    if get(Direction::Both).is_some() {
+        return None;
+    }
+    match (get(Direction::Fwd), get(Direction::Rev)) {
+        (Some(f), None) => Some((Direction::Fwd, f)),
+        (None, Some(r)) => Some((Direction::Rev, r)),
+        _ => None,
+    }
+}
+
 /// The day's two-way hourly volumes over its local clock hours, when every hour is known.
 pub fn complete_hours(
     day: &DayCounts,

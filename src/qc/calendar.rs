@@ -6,7 +6,9 @@
 //! `YYYY-MM-DD` for a single date. The default is the US federal set, with the days
 //! around New Year, Independence Day, Thanksgiving and Christmas taken in by
 //! `holiday_margin_days` (the travel days either side are as unusual as the holiday
-//! itself: common practice in count programmes, which screen them before factoring).
+//! itself: common practice in count programmes, which screen them before factoring). Every
+//! holiday also takes in its eve (the last working day before it) and a bridge day (a
+//! working day between it and a weekend).
 
 use chrono::{Datelike, NaiveDate, Weekday};
 
@@ -187,6 +189,27 @@ pub fn default_holidays() -> Vec<String> {
     .to_vec()
 }
 
+/// The working days next to a holiday whose traffic is unusual too: its eve, the last
+/// working day before it (getaway traffic in the afternoon; the Friday before a Monday
+/// holiday), and a bridge day, a working day between it and the weekend (Monday before a
+/// Tuesday holiday, Friday after a Thursday one), which many take off. Common practice in
+/// count programmes, no single source.
+fn eve_and_bridge(date: NaiveDate) -> Vec<(NaiveDate, &'static str)> {
+    let working = |d: NaiveDate| d.weekday().num_days_from_monday() < 5;
+    let mut out = Vec::new();
+    let mut eve = date - chrono::Duration::days(1);
+    while !working(eve) {
+        eve -= chrono::Duration::days(1);
+    }
+    out.push((eve, "eve of"));
+    match date.weekday() {
+        Weekday::Tue => out.push((date - chrono::Duration::days(1), "bridge day before")),
+        Weekday::Thu => out.push((date + chrono::Duration::days(1), "bridge day after")),
+        _ => {}
+    }
+    out
+}
+
 /// Holidays of the years a study spans, with the days around them.
 #[derive(Debug, Clone, Default)]
 pub struct HolidayCalendar {
@@ -224,6 +247,10 @@ impl HolidayCalendar {
                                 .or_insert_with(|| format!("around {}", text.trim()));
                         }
                     }
+                }
+                for (near, what) in eve_and_bridge(date) {
+                    days.entry(near)
+                        .or_insert_with(|| format!("{what} {}", text.trim()));
                 }
             }
         }
@@ -283,6 +310,12 @@ mod tests {
         assert_eq!(c.holiday(d(2025, 8, 11)), Some("2025-08-11"));
         assert_eq!(c.holiday(d(2024, 8, 11)), None);
         assert_eq!(c.holiday(d(2025, 8, 12)), None);
+        // 2025-08-11 is a Monday: its eve is Friday 8 August; 23 April 2024 a Tuesday, with
+        // Monday 22 April as its bridge day.
+        assert_eq!(c.holiday(d(2025, 8, 8)), Some("eve of 2025-08-11"));
+        assert_eq!(c.holiday(d(2024, 4, 22)), Some("eve of 04-23"));
+        assert_eq!(c.holiday(d(2025, 4, 22)), Some("eve of 04-23"));
+        assert_eq!(c.holiday(d(2025, 4, 24)), None);
         let bad = HolidayCalendar::new(&["easter_tuesday".to_string()], 2025..=2025, 1);
         assert!(bad.unwrap_err().contains("easter_tuesday"));
     }

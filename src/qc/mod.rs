@@ -6,7 +6,8 @@
 //! 1. Every direction-day is turned into an hourly series over the slots of its local day
 //!    (23, 24 or 25 hours; see [`DayCounts::day_hours`]). The rules run on vehicles, or on
 //!    axle hits for axle-only days. A day whose quarter-hour coverage is below
-//!    [`QcParams::min_coverage`] is `incomplete` and rejected; it takes no further part.
+//!    [`QcParams::min_coverage`] is `incomplete` and rejected (flagged on a short count, see
+//!    below); it takes no further part in the station rules.
 //! 2. From the complete 24-hour days a typical profile is built per station x direction x
 //!    measure x day type x clock hour: each day is scaled to the median daily total and the
 //!    median and MAD (x 1.4826) of every clock hour are taken. The day type is the weekday when
@@ -21,7 +22,7 @@
 //!
 //! | rule | tests | action |
 //! |---|---|---|
-//! | `incomplete` | quarter-hour coverage below `min_coverage` | rejected |
+//! | `incomplete` | quarter-hour coverage below `min_coverage` | rejected (short counts: flagged) |
 //! | `flat_run` | the same non-zero value in consecutive hours, less likely than `flat_run_max_probability` under Poisson noise | rejected |
 //! | `zero_run` | consecutive zero hours where >= `zero_run_min_expected` vehicles are expected (half the typical volume) | rejected |
 //! | `spike` | one hour >= `spike_min_ratio` x expected and `spike_min_z` deviations above it (at 00:00 and 23:00 also `spike_min_neighbour_ratio` x the hour across midnight) | rejected |
@@ -56,8 +57,10 @@
 //! class findings are only looked for on days no structural rule rejected.
 //!
 //! Days are local calendar days, as the data contract defines them: a short count that starts
-//! at 10:00 on Tuesday and ends at 10:00 on Thursday gives one complete day (Wednesday); its
-//! partial first and last days are rejected as `incomplete`.
+//! at 10:00 on Tuesday and ends at 10:00 on Thursday gives one complete day (Wednesday). On a
+//! short count, `incomplete` is flagged, not rejected: its partial first and last days and a
+//! day with missing hours inside the count keep their counted hours, which the short-count
+//! rules ([`short`]) check and expansion joins into 24-hour periods, filling short gaps.
 //!
 //! A whole-day drop or rise of one direction only (a fault from the first hour on) has no
 //! step within the day; it is flagged by `daily_deviation` and `directional_imbalance`, not
@@ -297,12 +300,28 @@ pub fn run(input: &QcInput, params: &QcParams) -> QcOutput {
             .get(si)
             .is_some_and(|s| s.kind == crate::model::StationKind::Short)
     };
-    let per_station: Vec<(Vec<QcFinding>, usize)> = store
+    let checked: Vec<Checked> = store
         .days
         .par_iter()
         .enumerate()
         .map(|(si, days)| check_station_in(si, days, oneway(si), is_short(si), &calendar, params))
         .collect();
+    let mut per_station: Vec<(Vec<QcFinding>, usize)> = Vec::with_capacity(checked.len());
+    let mut marks: Vec<BTreeMap<(Direction, NaiveDate), StepMark>> = Vec::new();
+    for c in checked {
+        per_station.push((c.findings, c.direction_days));
+        marks.push(c.steps);
+    }
+    let position = |si: usize| {
+        let seg = stations.stations.get(si)?.segment;
+        let (a, b) = (
+            network.segments.get(seg)?.from,
+            network.segments.get(seg)?.to,
+        );
+        let (a, b) = (network.nodes.get(a)?, network.nodes.get(b)?);
+        Some(((a.lon + b.lon) / 2.0, (a.lat + b.lat) / 2.0))
+    };
+    area_steps(&mut per_station, &marks, &position, &is_short, params);
     // Short counts against the permanent counters' accepted days (see `short`).
     let rejected_of = |f: &[QcFinding]| -> HashSet<(Direction, NaiveDate)> {
         f.iter()
@@ -346,6 +365,7 @@ pub fn run(input: &QcInput, params: &QcParams) -> QcOutput {
                 area: seg.area,
                 oneway: seg.oneway,
                 rejected: rejected_of(&per_station[si].0),
+                calendar: &calendar,
             };
             Some(short::check(&input, &reference, params, &reference_params))
         })
@@ -418,6 +438,91 @@ fn count_edge(
     }
 }
 
+/// The clock slot and sense of a day's level step, for the area check.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct StepMark {
+    slot: usize,
+    up: bool,
+}
+
+/// What checking one station gave.
+pub(crate) struct Checked {
+    pub findings: Vec<QcFinding>,
+    /// Direction-days looked at.
+    pub direction_days: usize,
+    /// The level step of each direction-day with a level-shift finding.
+    steps: BTreeMap<(Direction, NaiveDate), StepMark>,
+}
+
+/// Hours within which level steps of different counters count as the same step.
+const AREA_STEP_HOURS: usize = 3;
+
+/// Level steps rejected at a permanent counter become flags when at least
+/// `area_step_min_stations` other permanent counters within `area_step_km` step the same way
+/// (up or down) on the same date within [`AREA_STEP_HOURS`]: weather or an area-wide event,
+/// not a sensor, whose faults do not coincide across counters.
+fn area_steps(
+    per_station: &mut [(Vec<QcFinding>, usize)],
+    marks: &[BTreeMap<(Direction, NaiveDate), StepMark>],
+    position: &dyn Fn(usize) -> Option<(f64, f64)>,
+    is_short: &dyn Fn(usize) -> bool,
+    p: &QcParams,
+) {
+    let mut by_date: BTreeMap<NaiveDate, Vec<(usize, StepMark)>> = BTreeMap::new();
+    for (si, m) in marks.iter().enumerate() {
+        if is_short(si) {
+            continue;
+        }
+        for ((_, date), mark) in m {
+            by_date.entry(*date).or_default().push((si, *mark));
+        }
+    }
+    // Great-circle distance of two (lon, lat) points, km (haversine).
+    let km = |a: (f64, f64), b: (f64, f64)| {
+        let (la, lb) = (a.1.to_radians(), b.1.to_radians());
+        let h = ((lb - la) / 2.0).sin().powi(2)
+            + la.cos() * lb.cos() * ((b.0 - a.0).to_radians() / 2.0).sin().powi(2);
+        2.0 * crate::model::network::EARTH_RADIUS_KM * h.sqrt().asin()
+    };
+    for (si, (findings, _)) in per_station.iter_mut().enumerate() {
+        let Some(here) = position(si).filter(|_| !is_short(si)) else {
+            continue;
+        };
+        for f in findings.iter_mut() {
+            if f.rule != QcRule::LevelShift || f.action != QcAction::Rejected {
+                continue;
+            }
+            let Some(mark) = marks[si].get(&(f.direction, f.date)) else {
+                continue;
+            };
+            let mut others: Vec<usize> = by_date
+                .get(&f.date)
+                .into_iter()
+                .flatten()
+                .filter(|(o, m)| {
+                    *o != si
+                        && m.up == mark.up
+                        && m.slot.abs_diff(mark.slot) <= AREA_STEP_HOURS
+                        && position(*o).is_some_and(|there| km(here, there) <= p.area_step_km)
+                })
+                .map(|(o, _)| *o)
+                .collect();
+            others.dedup();
+            if others.len() >= p.area_step_min_stations {
+                f.action = QcAction::Flagged;
+                f.detail.push_str(&format!(
+                    "; {} other permanent counters within {:.0} km step the same way within {AREA_STEP_HOURS} h (weather or an area-wide event?)",
+                    others.len(),
+                    p.area_step_km
+                ));
+            }
+        }
+    }
+}
+
+/// Hours within which a level step of the other direction counts as the same step.
+const BOTH_DIRECTIONS_STEP_HOURS: usize = 2;
+
 /// Marks a level step that carries on into a neighbouring day: a fault, holiday or not.
 const CARRIES_ON: &str = "the off level carries on into";
 
@@ -446,7 +551,8 @@ pub(crate) fn check_station(
         .next()
         .zip(days.keys().next_back())
         .map(|(a, b)| (a.year(), b.year()));
-    check_station_in(station, days, oneway, short, &holiday_calendar(years, p), p)
+    let c = check_station_in(station, days, oneway, short, &holiday_calendar(years, p), p);
+    (c.findings, c.direction_days)
 }
 
 /// Checks one station against `calendar`: returns its findings and the number of
@@ -458,8 +564,9 @@ fn check_station_in(
     short: bool,
     calendar: &calendar::HolidayCalendar,
     p: &QcParams,
-) -> (Vec<QcFinding>, usize) {
+) -> Checked {
     let mut out = Vec::new();
+    let mut steps = BTreeMap::new();
     let mut count = 0;
     // Pass 1: series and coverage.
     let mut complete: BTreeMap<(Direction, NaiveDate), DaySeries> = BTreeMap::new();
@@ -472,11 +579,10 @@ fn check_station_in(
             let s = series(day, dd);
             if s.coverage + 1e-9 < p.min_coverage {
                 let n = s.values.len();
-                let edge = if short {
-                    count_edge(days, *date, d)
-                } else {
-                    None
-                };
+                // On a short count every counted hour is kept: the partial first and last
+                // days by design, and a day with missing hours inside the count, whose short
+                // gaps expansion fills (a longer gap leaves that stretch out of its periods).
+                let edge = short.then(|| count_edge(days, *date, d).unwrap_or("gapped"));
                 let detail = format!(
                         "{:.1} % of the {n} hours of the local day covered by {} figures (needs {:.1} %)",
                         s.coverage * 100.0,
@@ -490,6 +596,9 @@ fn check_station_in(
                     rule: QcRule::Incomplete,
                     action: if edge.is_some() { QcAction::Flagged } else { QcAction::Rejected },
                     detail: match edge {
+                        Some("gapped") => format!(
+                            "short count with missing hours (short gaps filled, counted hours used in 24-hour periods): {detail}"
+                        ),
                         Some(which) => format!(
                             "partial {which} day of a short count (hours used in 24-hour periods): {detail}"
                         ),
@@ -554,7 +663,14 @@ fn check_station_in(
             })
         };
         let mut structural = Vec::new();
-        if let Some(t) = rules::flat_run(s, scaled, p) {
+        // On a holiday the day type's profile misjudges the level (a quiet night repeats
+        // small counts): a flat run is judged on counting noise at its own value alone.
+        let flat_scale = if calendar.holiday(*date).is_some() {
+            None
+        } else {
+            scaled
+        };
+        if let Some(t) = rules::flat_run(s, flat_scale, p) {
             structural.push((QcRule::FlatRun, t));
         }
         let prev_day = date.pred_opt().and_then(|x| complete.get(&(*d, x)));
@@ -593,10 +709,37 @@ fn check_station_in(
                 rules::level_step(s, pr, p.level_shift_min_side_hours, p)
                     .or_else(|| rules::level_step(s, pr, 1, p).filter(|st| carries_on(st)))
             });
+            // Both directions stepping together at about the same hour is traffic, not a
+            // sensor: a storm, roadworks, an event or an incident moves both carriageways,
+            // while a lost lane or a miscalibrated loop is one direction's.
+            let together = |step: &rules::LevelStep| {
+                let other = match d {
+                    Direction::Fwd => Direction::Rev,
+                    Direction::Rev => Direction::Fwd,
+                    Direction::Both => return false,
+                };
+                let Some(os) = complete.get(&(other, *date)) else {
+                    return false;
+                };
+                let Some(op) = profile_of(other, os) else {
+                    return false;
+                };
+                rules::level_step(os, op, 1, p).is_some_and(|o| {
+                    (o.after > o.before) == (step.after > step.before)
+                        && o.slot.abs_diff(step.slot) <= BOTH_DIRECTIONS_STEP_HOURS
+                })
+            };
             if let Some(step) = step {
                 let persists = carries_on(&step);
                 let t = step.detail(s);
-                if persists {
+                if !short && !oneway && together(&step) {
+                    soft.push((
+                        QcRule::LevelShift,
+                        format!(
+                            "{t}; the other direction steps the same way within {BOTH_DIRECTIONS_STEP_HOURS} h (traffic: weather, roadworks, an event?)"
+                        ),
+                    ));
+                } else if persists {
                     let side = if step.after_is_off() {
                         "next"
                     } else {
@@ -624,6 +767,16 @@ fn check_station_in(
             (v, soft)
         };
         let (mut own, soft) = against(prof);
+        if own
+            .iter()
+            .chain(&soft)
+            .any(|(r, _)| *r == QcRule::LevelShift)
+        {
+            if let Some(st) = prof.and_then(|pr| rules::level_step(s, pr, 1, p)) {
+                let up = st.after > st.before;
+                steps.insert((*d, *date), StepMark { slot: st.slot, up });
+            }
+        }
         let holiday = calendar.holiday(*date);
         let mut holiday_list = Vec::new();
         if let Some(name) = holiday {
@@ -719,7 +872,11 @@ fn check_station_in(
     }
     // Classes.
     class_rules(station, &classified, &complete, &rejected, p, &mut out);
-    (out, count)
+    Checked {
+        findings: out,
+        direction_days: count,
+        steps,
+    }
 }
 
 /// fwd/rev pairs of complete days with the same measure and length.

@@ -72,6 +72,15 @@ pub struct QcParams {
     /// Days either side of New Year, Independence Day, Thanksgiving and Christmas that count
     /// as travel days. Default 1.
     pub holiday_margin_days: u32,
+    /// Distance within which permanent counters stepping the same way on the same date at
+    /// about the same hour (±3 h) make a level step area-wide traffic (a storm, snow, an
+    /// area-wide event), flagged rather than rejected, km. Default 30 (project choice: the
+    /// reach of a weather front over a few hours; sensor faults do not coincide).
+    pub area_step_km: f64,
+    /// Other permanent counters within `area_step_km` that must step the same way for that.
+    /// Default 2 (project choice: two independent faults in the same hour of the same day
+    /// nearby are far rarer than weather).
+    pub area_step_min_stations: usize,
 
     /// Smallest typical volume on each side of the break, vehicles. Default 50.
     pub level_shift_min_side_volume: f64,
@@ -195,6 +204,8 @@ impl Default for QcParams {
             level_shift_min_side_hours: 5,
             holidays: super::calendar::default_holidays(),
             holiday_margin_days: 1,
+            area_step_km: 30.0,
+            area_step_min_stations: 2,
             level_shift_min_off_share: 0.4,
             spike_min_neighbour_ratio: 1.5,
             shape_noise_share: 0.03,

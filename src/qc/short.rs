@@ -26,7 +26,9 @@
 //!    [`QcParams::short_level_shift_min_log_ratio`] for level steps. Zero runs, spikes and
 //!    flat runs reject; a level step rejects when its off side holds
 //!    [`QcParams::level_shift_min_off_share`] of the day, else it is flagged (an event, as on
-//!    permanent counters).
+//!    permanent counters). On a day of the `[qc] holidays` calendar (a holiday or a travel
+//!    day around one) every day type's profile may be the reference and a level step is
+//!    flagged, never rejected.
 //! 3. **The count's other direction and other days** (references b and c):
 //!    `swapped_directions` compares a working day's fwd share, clock hour by clock hour, with
 //!    the fwd share of the count's other working days at the same hours; `count_days` flags a
@@ -182,6 +184,8 @@ pub(crate) struct ShortStation<'a> {
     pub oneway: bool,
     /// Direction-days the station rules already rejected.
     pub rejected: HashSet<(Direction, NaiveDate)>,
+    /// The `[qc] holidays` calendar (holidays and the travel days around them).
+    pub calendar: &'a super::calendar::HolidayCalendar,
 }
 
 /// A direction-day of a short count on its longest run of covered hours.
@@ -257,6 +261,7 @@ fn choose<'a>(
     cands: &[&'a RefStation],
     runs: &BTreeMap<(Direction, NaiveDate), Run>,
     date: NaiveDate,
+    holiday: bool,
     p: &QcParams,
 ) -> HashMap<Direction, Chosen<'a>> {
     let mut out = HashMap::new();
@@ -269,7 +274,9 @@ fn choose<'a>(
             let (Some(fs), Some(rs)) = (c.fwd.as_ref(), c.rev.as_ref()) else {
                 continue;
             };
-            let typed = day_types(fs, date).into_iter().zip(day_types(rs, date));
+            let typed = day_types(fs, date, holiday)
+                .into_iter()
+                .zip(day_types(rs, date, holiday));
             for ((a, wa), (b, _)) in typed {
                 for (pf, pr, nf, nr) in [(a, b, "fwd", "rev"), (b, a, "rev", "fwd")] {
                     let m = (fit(&f.s, pf) + fit(&r.s, pr)) * wa;
@@ -303,7 +310,7 @@ fn choose<'a>(
             };
             for (set, dir) in sets {
                 let Some(set) = set.as_ref() else { continue };
-                for (pr, w) in day_types(set, date) {
+                for (pr, w) in day_types(set, date, holiday) {
                     let m = fit(&run.s, pr) * w;
                     if best.as_ref().is_none_or(|x| m < x.0) {
                         best = Some((
@@ -327,11 +334,13 @@ fn choose<'a>(
 
 /// The profiles a day may be matched to, with a weight on the misfit: its own day type
 /// (weight 1) and the other day types (weight 2: taken only when they fit at least twice
-/// as well, as a holiday with a Sunday shape does).
-fn day_types(set: &ProfileSet, date: NaiveDate) -> Vec<(&Profile, f64)> {
+/// as well, as an unlisted holiday with a Sunday shape does). On a day of the holiday
+/// calendar every day type has weight 1: a holiday or a travel day may take any shape.
+fn day_types(set: &ProfileSet, date: NaiveDate, holiday: bool) -> Vec<(&Profile, f64)> {
     let mut v: Vec<(&Profile, f64)> = set.for_date(date).map(|p| (p, 1.0)).into_iter().collect();
     if !v.is_empty() {
-        v.extend(set.other_day_types(date).into_iter().map(|p| (p, 2.0)));
+        let w = if holiday { 1.0 } else { 2.0 };
+        v.extend(set.other_day_types(date).into_iter().map(|p| (p, w)));
     }
     v
 }
@@ -645,7 +654,8 @@ pub(crate) fn check(
         .collect();
     let mut chosen: BTreeMap<(Direction, NaiveDate), Chosen> = BTreeMap::new();
     for &date in &dates {
-        for (d, c) in choose(&cands, &runs, date, p) {
+        let holiday = st.calendar.holiday(date).is_some();
+        for (d, c) in choose(&cands, &runs, date, holiday, p) {
             chosen.insert((d, date), c);
         }
     }
@@ -739,7 +749,11 @@ pub(crate) fn check(
                     }),
                     None => step.z >= p.level_shift_min_z,
                 };
-                let structural = confirmed && step.off_share() >= p.level_shift_min_off_share;
+                // A holiday's level is its own (as on permanent counters): flagged.
+                let holiday = st.calendar.holiday(*date);
+                let structural = confirmed
+                    && step.off_share() >= p.level_shift_min_off_share
+                    && holiday.is_none();
                 let action = if structural {
                     QcAction::Rejected
                 } else {
@@ -751,10 +765,11 @@ pub(crate) fn check(
                     (None, true) => "",
                     (None, false) => "; a small step against another road's profile",
                 };
+                let listed = holiday.map_or(String::new(), |h| format!("; {h} (holiday list)"));
                 v.push((
                     QcRule::LevelShift,
                     action,
-                    format!("{} against the {source}{why}", step.detail(s)),
+                    format!("{} against the {source}{why}{listed}", step.detail(s)),
                 ));
             } else if let Some(Some(o)) = own_days_step(&runs, &rejected, *d, *date, pr)
                 .map(|o| o.filter(|o| o.z >= p.short_own_days_min_z))

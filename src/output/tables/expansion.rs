@@ -55,6 +55,7 @@ pub fn short_counts(data: &StudyData, exp: &ExpansionOutput) -> Table {
             col("hours", "h", Format::Integer),
             col("counted_hours", "h", Format::Integer),
             col("filled_hours", "h", Format::Integer),
+            col("one_direction_hours", "h", Format::Integer),
             col("periods_24h", "", Format::Integer),
             col("measure", "", Format::Text),
             col("classified", "", Format::Text),
@@ -77,6 +78,7 @@ pub fn short_counts(data: &StudyData, exp: &ExpansionOutput) -> Table {
             Cell::from(c.hours),
             Cell::from(c.counted_hours),
             Cell::from(c.filled_hours),
+            Cell::from(c.one_direction_hours),
             Cell::from(c.expanded.days),
             Cell::from(c.measure),
             Cell::from(if c.classified { "yes" } else { "no" }),
@@ -99,7 +101,7 @@ pub fn short_counts(data: &StudyData, exp: &ExpansionOutput) -> Table {
             Cell::Empty,
             Cell::from(u.counted_hours),
         ];
-        row.extend(std::iter::repeat_n(Cell::Empty, 8));
+        row.extend(std::iter::repeat_n(Cell::Empty, 9));
         row.push(Cell::from("not_expanded"));
         row.push(Cell::from(u.reason.as_str()));
         t.push(row);
