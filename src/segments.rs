@@ -130,8 +130,10 @@ pub struct SegmentRow {
     pub basis: Basis,
     /// AADT with interval.
     pub aadt: Interval,
-    /// AADT per direction (fwd, rev), where a permanent counter measured them.
+    /// AADT per direction (fwd, rev): see [`DirectionBasis`].
     pub aadt_dir: [Option<f64>; 2],
+    /// Where the directional AADT comes from.
+    pub direction_basis: DirectionBasis,
     /// Factor group name.
     pub group: String,
     /// Heavy (4-13), single-unit (4-7), combination (8-13) shares.
@@ -156,6 +158,53 @@ pub struct SegmentRow {
     pub count_hours: usize,
     /// Counts combined.
     pub counts: usize,
+}
+
+/// Where a segment's AADT per direction comes from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum DirectionBasis {
+    /// The permanent counter's own directional AADTs.
+    Continuous,
+    /// The AADT split by the short counts' own daily direction shares (hours-weighted).
+    ShortCount,
+    /// Half each way: a two-way road without directional counts carries close to half its
+    /// daily traffic in each direction (common practice).
+    EvenSplit,
+    /// A one-way segment: all of it `fwd`.
+    OneWay,
+}
+
+impl DirectionBasis {
+    /// The spelling in `segment_statistics.csv`.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            DirectionBasis::Continuous => "continuous",
+            DirectionBasis::ShortCount => "short_count",
+            DirectionBasis::EvenSplit => "even_split",
+            DirectionBasis::OneWay => "one_way",
+        }
+    }
+}
+
+/// Fills a row's directional AADT where no counter measured it (see [`DirectionBasis`]);
+/// `fwd_share` is the short counts' share where they measured one.
+fn split_directions(row: &mut SegmentRow, oneway: bool, fwd_share: Option<f64>) {
+    let a = row.aadt.value;
+    match (row.aadt_dir, oneway) {
+        ([Some(_), Some(_)], _) => row.direction_basis = DirectionBasis::Continuous,
+        (_, true) => {
+            row.aadt_dir = [Some(a), Some(0.0)];
+            row.direction_basis = DirectionBasis::OneWay;
+        }
+        (_, false) => {
+            let (s, basis) = match fwd_share {
+                Some(s) => (s, DirectionBasis::ShortCount),
+                None => (0.5, DirectionBasis::EvenSplit),
+            };
+            row.aadt_dir = [Some(a * s), Some(a * (1.0 - s))];
+            row.direction_basis = basis;
+        }
+    }
 }
 
 /// Observations for the spatial stage: every segment with a counter or a short count.
@@ -331,6 +380,7 @@ pub fn assemble(input: &SegmentsInput, params: &SegmentsParams) -> Vec<SegmentRo
                             .map(|st| Sourced::from_stats(&st, "network".into()))
                     })
             };
+            let mut fwd_share: Option<f64> = None;
             let mut row = SegmentRow {
                 segment: seg,
                 basis: Basis::Estimated,
@@ -340,6 +390,7 @@ pub fn assemble(input: &SegmentsInput, params: &SegmentsParams) -> Vec<SegmentRo
                     hi95: f64::NAN,
                 },
                 aadt_dir: [None, None],
+                direction_basis: DirectionBasis::EvenSplit,
                 group: group.name.clone(),
                 heavy: from_group(|g| g.heavy_share.as_ref()),
                 single_unit: from_group(|g| g.single_unit_share.as_ref()),
@@ -424,6 +475,17 @@ pub fn assemble(input: &SegmentsInput, params: &SegmentsParams) -> Vec<SegmentRo
                 row.count_type = kinds.join(" ");
                 row.count_hours = counts.iter().map(|x| x.hours).sum();
                 row.counts = counts.len();
+                let shared: Vec<_> = counts.iter().filter(|x| x.fwd_share.is_some()).collect();
+                let hours: usize = shared.iter().map(|x| x.hours).sum();
+                if hours > 0 {
+                    fwd_share = Some(
+                        shared
+                            .iter()
+                            .filter_map(|x| x.fwd_share.map(|s| s * x.hours as f64))
+                            .sum::<f64>()
+                            / hours as f64,
+                    );
+                }
                 // K from the counts' own busiest working-day hour, related to the design hour by
                 // the group's ratio K30 / peak-hour share (its ranked-hour curve at rank 30);
                 // D from the direction split of those peak hours.
@@ -493,6 +555,7 @@ pub fn assemble(input: &SegmentsInput, params: &SegmentsParams) -> Vec<SegmentRo
                 row.aadt = e.aadt;
                 row.count_type = "none".into();
             }
+            split_directions(&mut row, oneway, fwd_share);
             row
         })
         .collect::<Vec<_>>();

@@ -154,6 +154,7 @@ mod tests {
                 hi95: hi,
             },
             aadt_dir: [None, None],
+            direction_basis: crate::segments::DirectionBasis::EvenSplit,
             group: String::new(),
             heavy: None,
             single_unit: None,

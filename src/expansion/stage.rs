@@ -50,6 +50,9 @@ pub struct ExpandedCount {
     pub counted_hours: usize,
     /// Of the hours used, those whose two-way volume was estimated from one direction.
     pub one_direction_hours: usize,
+    /// The count's daily share of `fwd` in the two-way volume, where both directions were
+    /// counted over every clock hour.
+    pub fwd_share: Option<f64>,
     /// `vehicles` or `axles`.
     pub measure: &'static str,
     /// Classified.
@@ -374,6 +377,7 @@ pub fn run(input: &ExpansionInput, params: &ExpansionParams) -> ExpansionOutput 
                         filled_from_own_days: gapped.filled_from_own_days,
                         counted_hours: gapped.counted_hours,
                         one_direction_hours: gapped.one_direction_hours,
+                        fwd_share: shares.daily_fwd_share(),
                         measure: if matches!(measure, Measured::Axles) {
                             "axles"
                         } else {
@@ -461,6 +465,8 @@ fn diagnostics(out: &ExpansionOutput, factors: &FactorOutput) -> crate::model::S
 struct DirectionShares {
     /// (fwd, rev) volume per clock hour (0..=24) over the two-direction hours.
     by_hour: [(f64, f64); 25],
+    /// Two-direction hours behind each clock hour.
+    hours: [usize; 25],
 }
 
 /// Vehicles behind an hourly direction share (both directions together).
@@ -474,6 +480,7 @@ impl DirectionShares {
         excluded: impl Fn(NaiveDate, Direction) -> bool,
     ) -> DirectionShares {
         let mut by_hour = [(0.0, 0.0); 25];
+        let mut hours = [0; 25];
         if !oneway {
             for d in days {
                 let excl = |x: Direction| excluded(d.date, x);
@@ -481,11 +488,31 @@ impl DirectionShares {
                     if let Some((_, Some(f), Some(r))) = two_way_hour(d, h, false, m, &excl) {
                         by_hour[k.min(24)].0 += f as f64;
                         by_hour[k.min(24)].1 += r as f64;
+                        hours[k.min(24)] += 1;
                     }
                 }
             }
         }
-        DirectionShares { by_hour }
+        DirectionShares { by_hour, hours }
+    }
+
+    /// The count's daily share of `fwd`: the mean fwd volume of each clock hour 0..23 over the
+    /// mean two-way volume of each, so that a count with more morning than evening hours does
+    /// not lean towards the morning peak's direction. `None` without every clock hour in both
+    /// directions or with fewer than [`MIN_SHARE_VOLUME`] vehicles.
+    fn daily_fwd_share(&self) -> Option<f64> {
+        let (mut f, mut t, mut n) = (0.0, 0.0, 0.0);
+        for k in 0..24 {
+            let c = self.hours[k];
+            if c == 0 {
+                return None;
+            }
+            let (a, b) = self.by_hour[k];
+            f += a / c as f64;
+            t += (a + b) / c as f64;
+            n += a + b;
+        }
+        (n >= MIN_SHARE_VOLUME && t > 0.0).then(|| f / t)
     }
 
     /// Share of `fwd` at clock hour `k` (see the type's docs).

@@ -60,7 +60,7 @@
 //! at 10:00 on Tuesday and ends at 10:00 on Thursday gives one complete day (Wednesday). On a
 //! short count, `incomplete` is flagged, not rejected: its partial first and last days and a
 //! day with missing hours inside the count keep their counted hours, which the short-count
-//! rules ([`short`]) check and expansion joins into 24-hour periods, filling short gaps.
+//! rules (`src/qc/short.rs`) check and expansion joins into 24-hour periods, filling short gaps.
 //!
 //! A whole-day drop or rise of one direction only (a fault from the first hour on) has no
 //! step within the day; it is flagged by `daily_deviation` and `directional_imbalance`, not

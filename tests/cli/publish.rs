@@ -274,10 +274,60 @@ fn both_directions_are_published_and_add_up() {
             "{station}: {f} + {r} against {b}"
         );
     }
+    // Every segment has both directions, numeric, adding up to its AADT within rounding
+    // (each of the three is rounded to whole vehicles); two-way ones carry traffic both ways.
+    // Short-count and estimated segments are split by `direction_basis`.
     let seg = csv_rows(&out.join("segment_statistics.csv"));
-    let rev = seg[0].iter().position(|c| c == "aadt_rev").unwrap();
-    let basis = seg[0].iter().position(|c| c == "basis").unwrap();
-    for r in seg[1..].iter().filter(|r| r[basis] == "continuous") {
-        assert!(r[rev].parse::<f64>().is_ok_and(|v| v > 0.0), "{r:?}");
+    let at = |name: &str| seg[0].iter().position(|c| c == name).unwrap();
+    let (aadt, fwd, rev, basis) = (
+        at("aadt"),
+        at("aadt_fwd"),
+        at("aadt_rev"),
+        at("direction_basis"),
+    );
+    let segments = csv_rows(
+        &Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/small/network/segments.csv"),
+    );
+    let oneway: std::collections::HashMap<&str, bool> = segments[1..]
+        .iter()
+        .map(|r| (r[0].as_str(), r[7] == "true"))
+        .collect();
+    let mut bases = std::collections::BTreeSet::new();
+    for r in &seg[1..] {
+        let num = |i: usize| r[i].parse::<f64>().unwrap_or_else(|_| panic!("{r:?}"));
+        let (a, f, v) = (num(aadt), num(fwd), num(rev));
+        // A counter's directions are AADTs of their own complete days (1 %, as above).
+        let tol = if r[basis] == "continuous" {
+            0.01 * a
+        } else {
+            1.5
+        };
+        assert!((f + v - a).abs() <= tol, "{}: {f} + {v} against {a}", r[0]);
+        let two_way = !oneway[r[0].as_str()];
+        assert!(!two_way || v > 0.0, "{}: two-way without rev traffic", r[0]);
+        bases.insert(r[basis].clone());
+    }
+    for b in &bases {
+        assert!(
+            ["continuous", "short_count", "even_split", "one_way"].contains(&b.as_str()),
+            "{b}"
+        );
+    }
+    assert!(
+        bases.contains("continuous") && bases.contains("short_count"),
+        "{bases:?}"
+    );
+    // GIS tools read the directional AADT as numbers.
+    let geo: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("segments.geojson")).unwrap())
+            .unwrap();
+    for f in geo["features"].as_array().unwrap() {
+        for key in ["aadt_fwd", "aadt_rev"] {
+            assert!(
+                f["properties"][key].is_number(),
+                "{key}: {}",
+                f["properties"]
+            );
+        }
     }
 }

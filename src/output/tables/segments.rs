@@ -87,6 +87,9 @@ pub fn segment_statistics(data: &StudyData, rows: &[SegmentRow], spatial: &Spati
         .col("aadt_rev", "veh/day", Format::Integer, |x| {
             opt(x.r.aadt_dir[1])
         })
+        .col("direction_basis", "", Format::Text, |x| {
+            Cell::from(x.r.direction_basis.as_str())
+        })
         .col("heavy_aadt", "veh/day", Format::Integer, |x| {
             opt(x.r.heavy.as_ref().map(|h| h.value * x.r.aadt.value))
         })
