@@ -95,13 +95,17 @@ struct TollRow {
     misbilled: bool,
 }
 
-/// Writes `toll.csv` and `truth/toll_truth.csv`.
+/// Writes `toll.csv` and `truth/toll_truth.csv`. Exactly one segment-month is billed 10 %
+/// high, on a tolled segment with a permanent counter (`counted`) where there is one: the
+/// case an audit with measured days must detect.
+#[allow(clippy::too_many_arguments)]
 pub(crate) fn write_toll(
     rng: &mut ChaCha8Rng,
     out: &Path,
     net: &Network,
     pats: &[Pattern],
     disturb: &Plan,
+    counted: &[usize],
     year: i32,
 ) -> Result<Vec<PathBuf>, DemoError> {
     let days = days_of_year(year);
@@ -140,8 +144,19 @@ pub(crate) fn write_toll(
             }
         }
     }
+    let on_counter: Vec<usize> = (0..rows.len())
+        .filter(|&k| {
+            counted
+                .iter()
+                .any(|&c| net.segments[c].id == rows[k].segment)
+        })
+        .collect();
     if !rows.is_empty() {
-        let k = rng.gen_range(0..rows.len());
+        let k = if on_counter.is_empty() {
+            rng.gen_range(0..rows.len())
+        } else {
+            on_counter[rng.gen_range(0..on_counter.len())]
+        };
         rows[k].billed = (rows[k].true_vehicles as f64 * 1.10).round() as u64;
         rows[k].misbilled = true;
     }

@@ -268,7 +268,7 @@ pub(crate) fn generate_scaled(
         &plan,
         params.year,
     )?);
-    let toll = extras::write_toll(&mut rng, out, &net, &pats, &disturb, params.year)?;
+    let toll = extras::write_toll(&mut rng, out, &net, &pats, &disturb, &counters, params.year)?;
     files.extend(toll);
 
     let mut fault_rows = cont.faults;

@@ -339,7 +339,8 @@ fn exit_codes_tell_loss_from_tolerance_from_failure() {
     // One month of a permanent counter is its whole year here, so no foundation alarm.
     s.write(
         "study.toml",
-        "max_rejected_share = 0.05\n[continuous.sufficiency]\nrequired_months = 1\n",
+        // Two segments: any fallback is half the network, which is not what is tested here.
+        "max_rejected_share = 0.05\nmax_fallback_share = 1.0\n[continuous.sufficiency]\nrequired_months = 1\n",
     );
     let o = s.run();
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));

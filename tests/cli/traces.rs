@@ -227,7 +227,7 @@ fn csv_table(path: &Path) -> Vec<std::collections::HashMap<String, String>> {
 }
 
 /// Fallback alarm. The demo at its defaults stays below `max_fallback_share` in every stage
-/// (exit 0). With the share lowered to 0.02, the expansion stage's fallbacks (short counts not
+/// (exit 0). With the share lowered to 0.005, the expansion stage's fallbacks (short counts not
 /// expanded) raise an exit-1 alarm naming the stage; `diagnostics.csv` counts exactly the
 /// `not_expanded` rows of `short_counts.csv` (an independent table), and the manifest carries
 /// the alarm as the terminal printed it.
@@ -246,7 +246,7 @@ fn a_stage_that_falls_back_too_often_raises_an_alarm_naming_it() {
     let toml = std::fs::read_to_string(study.join("study.toml")).unwrap();
     std::fs::write(
         study.join("study.toml"),
-        format!("max_fallback_share = 0.02\n{toml}"),
+        format!("max_fallback_share = 0.005\n{toml}"),
     )
     .unwrap();
     let out = dir.path().join("out2");
