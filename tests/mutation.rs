@@ -135,7 +135,10 @@ fn base_study() -> BTreeMap<String, Vec<u8>> {
     };
     put(
         "study.toml",
-        "year = 2025\n\n[continuous.sufficiency]\nrequired_months = 1\n".into(),
+        // Three segments: one fallback is a third of the network, so the fallback alarm is
+        // off; the alarms tested here are data loss and the missing foundation.
+        "year = 2025\nmax_fallback_share = 1.0\n\n[continuous.sufficiency]\nrequired_months = 1\n"
+            .into(),
     );
     put(
         "network/nodes.csv",
@@ -586,7 +589,7 @@ fn run_case(plan: &[Mutation], cli: bool, tally: &mut Tally) -> Result<(), TestC
         .collect();
     let csv_inputs: BTreeSet<String> = files
         .keys()
-        .filter(|k| !matches!(k.as_str(), "study.toml" | "factors/lane_distribution.csv"))
+        .filter(|k| k.as_str() != "study.toml")
         .cloned()
         .collect();
     let in_manifest: BTreeSet<String> = inputs.keys().cloned().collect();
