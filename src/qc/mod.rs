@@ -697,6 +697,11 @@ fn check_station_in(
                     prev_day
                 };
                 neighbour.and_then(|nd| {
+                    // A holiday's (or its eve's) level is its own: running into one is no
+                    // sign that a sensor stayed off.
+                    if calendar.holiday(nd.date).is_some() {
+                        return None;
+                    }
                     let np = profile_of(*d, nd)?;
                     let hours = p.level_shift_min_side_hours;
                     let r = rules::edge_ratio(nd, np, hours, step.after_is_off());
