@@ -57,6 +57,14 @@ struct QcTally {
     holidays: (usize, usize, usize),
 }
 
+/// "kind part/total, ..." of a tally by kind.
+fn tally_text(t: &std::collections::BTreeMap<String, (usize, usize)>) -> String {
+    t.iter()
+        .map(|(k, (n, c))| format!("{k} {c}/{n}"))
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
 impl QcTally {
     fn add(&mut self, seed: u64, size: DemoSize, keep: impl Fn(StationKind) -> bool) {
         let (dir, r) = study_of(seed, size);
@@ -185,20 +193,12 @@ impl QcTally {
 
     /// Per disturbance kind "rejected/clean days", for failure messages.
     fn disturbances(&self) -> String {
-        self.disturbed
-            .iter()
-            .map(|(k, (n, c))| format!("{k} {c}/{n}"))
-            .collect::<Vec<_>>()
-            .join(", ")
+        tally_text(&self.disturbed)
     }
 
     /// Per kind "caught/faulty", for failure messages.
     fn kinds(&self) -> String {
-        self.by_kind
-            .iter()
-            .map(|(k, (n, c))| format!("{k} {c}/{n}"))
-            .collect::<Vec<_>>()
-            .join(", ")
+        tally_text(&self.by_kind)
     }
 }
 
