@@ -397,17 +397,6 @@ pub(crate) struct CountsOutcome {
     pub disturbed: Vec<DisturbedDay>,
 }
 
-/// Clock hours 0..=23, the hours a day's disturbance multipliers are asked for.
-const CLOCK_HOURS: [u32; 24] = {
-    let mut h = [0u32; 24];
-    let mut i = 0;
-    while i < 24 {
-        h[i] = i as u32;
-        i += 1;
-    }
-    h
-};
-
 /// Records the disturbance kinds of one station-day.
 fn note_disturbed(
     out: &mut Vec<DisturbedDay>,
@@ -464,7 +453,7 @@ pub(crate) fn write_continuous(
             let date = day[0].date;
             let indexed: Vec<(usize, &Interval)> = day.iter().enumerate().collect();
             let day_mean = seg.aadt * pattern.day_level(date, norm);
-            let effect = disturb.day(st.segment, date, &CLOCK_HOURS);
+            let effect = disturb.day(st.segment, date);
             note_disturbed(&mut disturbed, &st.id, date, &effect.kinds);
             let mut recs = draw_day(
                 rng,
@@ -785,7 +774,7 @@ fn draw_short(
             .filter(|(_, iv)| iv.date == date)
             .collect();
         let day_mean = aadt * pattern.day_level(date, norm);
-        let effect = disturb.day(st.segment, date, &CLOCK_HOURS);
+        let effect = disturb.day(st.segment, date);
         note_disturbed(disturbed, &st.id, date, &effect.kinds);
         let mut recs = draw_day(
             rng,

@@ -329,15 +329,16 @@ impl Plan {
             .filter(move |x| x.start.0 <= date && date <= x.end.0)
     }
 
-    /// The multipliers of the 24 (or 23, 25) clock hours `hours` of `date` on segment `seg`,
-    /// with the kinds that moved any of them by more than 5 %.
-    pub(crate) fn day(&self, seg: usize, date: NaiveDate, hours: &[u32]) -> DayEffect {
+    /// The multipliers of the clock hours 0..=23 of `date` on segment `seg` (the repeated
+    /// hour of a 25-hour day takes its clock hour's), with the kinds that moved any of them
+    /// by more than 5 %.
+    pub(crate) fn day(&self, seg: usize, date: NaiveDate) -> DayEffect {
         let xy = self.mid.get(seg).copied().unwrap_or_default();
-        let mut m = vec![1.0; hours.len()];
+        let mut m = [1.0; 24];
         let mut kinds = Vec::new();
         for x in self.on(date) {
             let mut moved = false;
-            for (mi, &h) in m.iter_mut().zip(hours) {
+            for (h, mi) in (0u32..).zip(m.iter_mut()) {
                 let f = x.at(seg, xy, date, h);
                 moved |= (f - 1.0).abs() > 0.05;
                 *mi *= f;
@@ -354,7 +355,6 @@ impl Plan {
     pub(crate) fn annual_effect(&self, seg: usize, pattern: &Pattern, year: i32) -> f64 {
         let norm = pattern.norm(year);
         let n = patterns::days_of_year(year).len() as f64;
-        let hours: Vec<u32> = (0..24).collect();
         // Only the dates a disturbance spans differ from 1.
         let mut dates: Vec<NaiveDate> = self
             .list
@@ -367,33 +367,23 @@ impl Plan {
         dates.dedup();
         let change: f64 = dates
             .iter()
-            .map(|&d| pattern.day_level(d, norm) * (self.day_share(seg, pattern, d, &hours) - 1.0))
+            .map(|&d| pattern.day_level(d, norm) * (self.day_share(seg, pattern, d) - 1.0))
             .sum();
         1.0 + change / n
     }
 
     /// The day's volume with its disturbances over the day's volume without them.
-    pub(crate) fn day_share(
-        &self,
-        seg: usize,
-        pattern: &Pattern,
-        date: NaiveDate,
-        hours: &[u32],
-    ) -> f64 {
-        let e = self.day(seg, date, hours);
+    pub(crate) fn day_share(&self, seg: usize, pattern: &Pattern, date: NaiveDate) -> f64 {
+        let e = self.day(seg, date);
         let profile = &pattern.hourly[patterns::day_type(date) as usize];
-        hours
-            .iter()
-            .zip(&e.hourly)
-            .map(|(&h, m)| profile[h as usize] * m)
-            .sum()
+        profile.iter().zip(&e.hourly).map(|(p, m)| p * m).sum()
     }
 }
 
 /// The multipliers of one segment-day.
 pub(crate) struct DayEffect {
-    /// Per clock hour asked for.
-    pub hourly: Vec<f64>,
+    /// Per clock hour 0..=23.
+    pub hourly: [f64; 24],
     /// Kinds that moved an hour by more than 5 %.
     pub kinds: Vec<Kind>,
 }

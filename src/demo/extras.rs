@@ -109,7 +109,6 @@ pub(crate) fn write_toll(
     year: i32,
 ) -> Result<Vec<PathBuf>, DemoError> {
     let days = days_of_year(year);
-    let hours: Vec<u32> = (0..24).collect();
     let noise = Normal::new(0.0, 0.01).expect("finite sd");
     let mut rows = Vec::new();
     for &s in &net.tolled {
@@ -125,9 +124,7 @@ pub(crate) fn write_toll(
                 .collect();
             let total: f64 = in_month
                 .iter()
-                .map(|&d| {
-                    seg.aadt * pattern.day_level(d, norm) * disturb.day_share(s, pattern, d, &hours)
-                })
+                .map(|&d| seg.aadt * pattern.day_level(d, norm) * disturb.day_share(s, pattern, d))
                 .sum();
             for (group, share) in [("light", 1.0 - heavy), ("heavy", heavy)] {
                 let true_vehicles = (total * share).round();

@@ -467,6 +467,8 @@ struct DirectionShares {
     by_hour: [(f64, f64); 25],
     /// Two-direction hours behind each clock hour.
     hours: [usize; 25],
+    /// `fwd` share over all two-direction hours (the fallback of an hour without enough).
+    overall: f64,
 }
 
 /// Vehicles behind an hourly direction share (both directions together).
@@ -493,7 +495,19 @@ impl DirectionShares {
                 }
             }
         }
-        DirectionShares { by_hour, hours }
+        let (f, r) = by_hour
+            .iter()
+            .fold((0.0, 0.0), |a, b| (a.0 + b.0, a.1 + b.1));
+        let overall = if f + r >= MIN_SHARE_VOLUME {
+            f / (f + r)
+        } else {
+            0.5
+        };
+        DirectionShares {
+            by_hour,
+            hours,
+            overall,
+        }
     }
 
     /// The count's daily share of `fwd`: the mean fwd volume of each clock hour 0..23 over the
@@ -518,16 +532,10 @@ impl DirectionShares {
     /// Share of `fwd` at clock hour `k` (see the type's docs).
     fn fwd_share(&self, k: usize) -> f64 {
         let (f, r) = self.by_hour[k.min(24)];
-        let (tf, tr) = self
-            .by_hour
-            .iter()
-            .fold((0.0, 0.0), |a, b| (a.0 + b.0, a.1 + b.1));
         let share = if f + r >= MIN_SHARE_VOLUME {
             f / (f + r)
-        } else if tf + tr >= MIN_SHARE_VOLUME {
-            tf / (tf + tr)
         } else {
-            0.5
+            self.overall
         };
         share.clamp(0.1, 0.9)
     }

@@ -88,7 +88,7 @@ mod short;
 #[cfg(test)]
 mod tests;
 
-use std::collections::{BTreeMap, HashSet};
+use std::collections::{BTreeMap, BTreeSet, HashSet};
 
 use chrono::{Datelike, NaiveDate};
 use rayon::prelude::*;
@@ -312,15 +312,9 @@ pub fn run(input: &QcInput, params: &QcParams) -> QcOutput {
         per_station.push((c.findings, c.direction_days));
         marks.push(c.steps);
     }
-    let position = |si: usize| {
-        let seg = stations.stations.get(si)?.segment;
-        let (a, b) = (
-            network.segments.get(seg)?.from,
-            network.segments.get(seg)?.to,
-        );
-        let (a, b) = (network.nodes.get(a)?, network.nodes.get(b)?);
-        Some(((a.lon + b.lon) / 2.0, (a.lat + b.lat) / 2.0))
-    };
+    // Counter positions on the plane the spatial stage uses (segment midpoints, km).
+    let mids = network.midpoints_km();
+    let position = |si: usize| Some(*mids.get(stations.stations.get(si)?.segment)?);
     area_steps(&mut per_station, &marks, &position, &is_short, params);
     // Short counts against the permanent counters' accepted days (see `short`).
     let rejected_of = |f: &[QcFinding]| -> HashSet<(Direction, NaiveDate)> {
@@ -464,7 +458,7 @@ const AREA_STEP_HOURS: usize = 3;
 fn area_steps(
     per_station: &mut [(Vec<QcFinding>, usize)],
     marks: &[BTreeMap<(Direction, NaiveDate), StepMark>],
-    position: &dyn Fn(usize) -> Option<(f64, f64)>,
+    position: &dyn Fn(usize) -> Option<[f64; 2]>,
     is_short: &dyn Fn(usize) -> bool,
     p: &QcParams,
 ) {
@@ -477,13 +471,7 @@ fn area_steps(
             by_date.entry(*date).or_default().push((si, *mark));
         }
     }
-    // Great-circle distance of two (lon, lat) points, km (haversine).
-    let km = |a: (f64, f64), b: (f64, f64)| {
-        let (la, lb) = (a.1.to_radians(), b.1.to_radians());
-        let h = ((lb - la) / 2.0).sin().powi(2)
-            + la.cos() * lb.cos() * ((b.0 - a.0).to_radians() / 2.0).sin().powi(2);
-        2.0 * crate::model::network::EARTH_RADIUS_KM * h.sqrt().asin()
-    };
+    let km = |a: [f64; 2], b: [f64; 2]| (a[0] - b[0]).hypot(a[1] - b[1]);
     for (si, (findings, _)) in per_station.iter_mut().enumerate() {
         let Some(here) = position(si).filter(|_| !is_short(si)) else {
             continue;
@@ -495,7 +483,7 @@ fn area_steps(
             let Some(mark) = marks[si].get(&(f.direction, f.date)) else {
                 continue;
             };
-            let mut others: Vec<usize> = by_date
+            let others: BTreeSet<usize> = by_date
                 .get(&f.date)
                 .into_iter()
                 .flatten()
@@ -507,7 +495,6 @@ fn area_steps(
                 })
                 .map(|(o, _)| *o)
                 .collect();
-            others.dedup();
             if others.len() >= p.area_step_min_stations {
                 f.action = QcAction::Flagged;
                 f.detail.push_str(&format!(
