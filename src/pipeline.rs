@@ -272,9 +272,11 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
     };
     let expansion = crate::expansion::stage::run(&expansion_input, &settings.expansion);
     let obs = crate::segments::observations(&data.network, &data.stations, &continuous, &expansion);
+    let history = crate::segments::history_points(&data.network, &data.history, &factors, year);
     let spatial_input = crate::spatial::stage::SpatialInput {
         network: &data.network,
         observations: &obs,
+        history: &history,
     };
     let spatial = crate::spatial::stage::run(&spatial_input, &settings.spatial)?;
     let segments = crate::segments::assemble(

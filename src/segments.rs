@@ -8,7 +8,9 @@ use crate::expansion::Z95;
 use crate::factors::precision::FactorStats;
 use crate::factors::stage::FactorOutput;
 use crate::model::{Network, StationList};
-use crate::spatial::stage::{Interval, Observation, SpatialOutput};
+use crate::model::HistoryRecord;
+use crate::spatial::history::HistoryPoint;
+use crate::spatial::stage::{Interval, Observation, ObservationKind, SpatialOutput};
 
 /// Settings of the segment assembly (`[segments]` in study.toml): the uncertainty given to
 /// figures measured without a spread of their own, and the reach of the same-road rule for
@@ -224,6 +226,7 @@ pub fn observations(
                 segment: seg,
                 log_aadt: s.aadt_value.ln(),
                 meas_var: s.aadt_log_sd.powi(2),
+                kind: ObservationKind::Counter,
             });
         }
     }
@@ -234,11 +237,42 @@ pub fn observations(
                 segment: seg,
                 log_aadt: c.aadt.ln(),
                 meas_var: c.log_sd.powi(2),
+                kind: ObservationKind::ShortCount,
             });
         }
     }
     obs.sort_by_key(|o| o.segment);
     obs
+}
+
+/// Each segment's latest published AADT (`history.csv`) of a year before `year`, brought to
+/// `year` with its factor group's growth: the spatial stage's history points.
+pub fn history_points(
+    network: &Network,
+    history: &[HistoryRecord],
+    factors: &FactorOutput,
+    year: i32,
+) -> Vec<HistoryPoint> {
+    let mut latest: Vec<Option<&HistoryRecord>> = vec![None; network.segments.len()];
+    for h in history.iter().filter(|h| h.year < year && h.aadt > 0.0) {
+        let slot = &mut latest[h.segment];
+        if slot.is_none_or(|l| h.year > l.year) {
+            *slot = Some(h);
+        }
+    }
+    latest
+        .iter()
+        .flatten()
+        .map(|h| {
+            let growth = &factors.groups[factors.segment_group[h.segment]].growth;
+            HistoryPoint {
+                segment: h.segment,
+                year: h.year,
+                log_now: h.aadt.ln() + growth.factor(h.year, year).factor.ln(),
+                age: f64::from(year - h.year),
+            }
+        })
+        .collect()
 }
 
 fn network_stats(

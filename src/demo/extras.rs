@@ -2,9 +2,12 @@
 //!
 //! # Method
 //!
-//! History: published AADT of year `y` = true AADT / (1 + growth)^(year - y) x lognormal
-//! noise (CV 3 %), for every continuous-counter segment (all five earlier years) and a third
-//! of the others (each year with probability 0.7).
+//! History: published AADT of year `y` = true AADT / (1 + growth)^(year - y) x exp(walk) x
+//! error. The walk departs from the growth trend by N(0, 0.03) a year (the level of a road
+//! changes beyond its trend); the error is lognormal, log sd 0.02 for a continuous counter's
+//! segment (all five earlier years) and 0.09 for a coverage count (an expanded short count).
+//! Coverage counts rotate on a three-year cycle over 85 % of the principal arterials and
+//! above, 60 % of minor arterials, 35 % of major collectors and 12 % of the rest.
 //!
 //! Toll: monthly billing for each tolled segment and vehicle group; the true passages are the
 //! generator's expected volumes (no day noise) summed over the month, both directions;
@@ -57,7 +60,9 @@ pub(crate) fn write_history(
     year: i32,
 ) -> Result<PathBuf, DemoError> {
     let mut sink = CsvSink::create(out.join("history.csv"), &["segment_id", "year", "aadt"])?;
-    let noise = LogNormal::new(0.0, 0.03).expect("finite sd");
+    let counter_error = LogNormal::new(0.0, 0.02).expect("finite sd");
+    let coverage_error = LogNormal::new(0.0, 0.09).expect("finite sd");
+    let drift = Normal::new(0.0, 0.03).expect("finite sd");
     let mut counted = vec![false; net.segments.len()];
     for c in &plan.continuous {
         counted[c.segment] = true;
@@ -65,15 +70,30 @@ pub(crate) fn write_history(
     let growth: Vec<f64> = Pattern::all().iter().map(|p| p.growth).collect();
     for (s, seg) in net.segments.iter().enumerate() {
         let every_year = counted[s];
-        if !every_year && !rng.gen_bool(1.0 / 3.0) {
+        let covered = match seg.class {
+            1..=3 => 0.85,
+            4 => 0.6,
+            5 => 0.35,
+            _ => 0.12,
+        };
+        if !every_year && !rng.gen_bool(covered) {
             continue;
         }
-        for y in (year - HISTORY_YEARS)..year {
-            if !every_year && !rng.gen_bool(0.7) {
+        let phase = rng.gen_range(0..3);
+        // The level departs from the trend year by year (new building, a changed route).
+        let mut walk = 0.0;
+        for y in ((year - HISTORY_YEARS)..year).rev() {
+            walk += drift.sample(rng);
+            if !every_year && (year - y + phase) % 3 != 0 {
                 continue;
             }
+            let error = if every_year {
+                counter_error.sample(rng)
+            } else {
+                coverage_error.sample(rng)
+            };
             let g = growth[seg.pattern];
-            let aadt = seg.aadt / (1.0 + g).powi(year - y) * noise.sample(rng);
+            let aadt = seg.aadt / (1.0 + g).powi(year - y) * f64::exp(walk) * error;
             sink.row([
                 seg.id.clone(),
                 y.to_string(),

@@ -50,6 +50,7 @@ mod gaps;
 mod network;
 mod patterns;
 mod sink;
+mod traffic;
 
 #[cfg(test)]
 mod tests;

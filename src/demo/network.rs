@@ -13,13 +13,14 @@
 //!   arterial `R3` (3);
 //! * local dead-end roads (7) branching off the rural grid.
 //!
-//! True AADT is log-linear: the log of AADT is the log of a base value by class and area,
-//! plus 0.18 per lane above the usual number, a route offset, a random walk along the route,
-//! a spatial field and a little independent noise, then clamped to a plausible range per
-//! class. The spatial field is a sum of random cosines (a random Fourier feature
-//! approximation of a Gaussian field with about 12 km correlation length), so nearby segments
-//! correlate; the random walk along a route (AR(1), rho 0.85) keeps consecutive segments of a
-//! route close.
+//! The highways snap to the grid where they pass close to a node (interchanges) and their
+//! ends are gateways for traffic from outside the region.
+//!
+//! True AADT is network-driven ([`super::traffic`]): trips between places are assigned to
+//! their fastest paths, so a segment's volume follows its role in the network (through
+//! traffic on the roads that carry it, almost none on a slower parallel street), plus its own
+//! access traffic and a little independent noise (log sd 0.08). The heavy share comes from a
+//! separate freight layer with longer trips.
 //!
 //! # Units
 //!
@@ -109,6 +110,8 @@ pub(crate) struct Network {
     pub segments: Vec<Segment>,
     /// Tolled segments (consecutive segments of the interstate), in route order.
     pub tolled: Vec<usize>,
+    /// Highway ends where traffic enters and leaves the region.
+    gateways: Vec<usize>,
     /// Side of the rural grid, km.
     extent_km: f64,
     /// Town centres and radii in plane km.
@@ -122,6 +125,7 @@ pub(crate) fn build(rng: &mut ChaCha8Rng, scale: &Scale) -> Network {
         nodes: Vec::new(),
         segments: Vec::new(),
         tolled: Vec::new(),
+        gateways: Vec::new(),
         extent_km: (scale.rural_grid - 1) as f64 * scale.rural_spacing_km,
         towns: Vec::new(),
         routes: Vec::new(),
@@ -288,16 +292,32 @@ fn add_town(net: &mut Network, m: usize, cx: f64, cy: f64, names: &mut usize) {
     }
 }
 
-/// Nodes every `step_km` on the straight line from `a` to `b`.
+/// Nodes every `step_km` on the straight line from `a` to `b`. A point within `snap_km` of an
+/// existing node joins it (an interchange or crossing); the two ends become gateways, where
+/// traffic enters and leaves the region.
 fn line(net: &mut Network, a: (f64, f64), b: (f64, f64), step_km: f64) -> Vec<usize> {
+    let snap_km = 0.3 * step_km;
     let len = (b.0 - a.0).hypot(b.1 - a.1);
     let n = (len / step_km).ceil().max(1.0) as usize;
-    (0..=n)
-        .map(|i| {
-            let t = i as f64 / n as f64;
-            net.add_node(a.0 + t * (b.0 - a.0), a.1 + t * (b.1 - a.1))
-        })
-        .collect()
+    let existing = net.nodes.len();
+    let mut path: Vec<usize> = Vec::with_capacity(n + 1);
+    for i in 0..=n {
+        let t = i as f64 / n as f64;
+        let (x, y) = (a.0 + t * (b.0 - a.0), a.1 + t * (b.1 - a.1));
+        let near = (0..existing)
+            .map(|k| (k, (net.nodes[k].x_km - x).hypot(net.nodes[k].y_km - y)))
+            .filter(|&(_, d)| d <= snap_km)
+            .min_by(|p, q| p.1.total_cmp(&q.1))
+            .map(|(k, _)| k);
+        let node = match near {
+            Some(k) if !path.contains(&k) => k,
+            _ => net.add_node(x, y),
+        };
+        path.push(node);
+    }
+    net.gateways.push(path[0]);
+    net.gateways.push(path[n]);
+    path
 }
 
 fn add_highways(net: &mut Network, extent: f64) {
@@ -387,55 +407,6 @@ fn speed_limit(class: u8, urban: bool) -> u32 {
     }
 }
 
-/// Random-cosine approximation of a smooth Gaussian field, standard deviation `sigma`.
-struct SmoothField {
-    waves: Vec<(f64, f64, f64)>,
-    amplitude: f64,
-}
-
-impl SmoothField {
-    fn new(rng: &mut ChaCha8Rng, sigma: f64, corr_km: f64, n: usize) -> Self {
-        let freq = Normal::new(0.0, 1.0 / corr_km).expect("positive sd");
-        let waves = (0..n)
-            .map(|_| {
-                (
-                    freq.sample(rng),
-                    freq.sample(rng),
-                    rng.gen_range(0.0..std::f64::consts::TAU),
-                )
-            })
-            .collect();
-        SmoothField {
-            waves,
-            amplitude: sigma * (2.0 / n as f64).sqrt(),
-        }
-    }
-
-    fn at(&self, x: f64, y: f64) -> f64 {
-        self.amplitude
-            * self
-                .waves
-                .iter()
-                .map(|&(wx, wy, ph)| (wx * x + wy * y + ph).cos())
-                .sum::<f64>()
-    }
-}
-
-/// Median AADT by class (index 0 = class 1) for rural and urban areas.
-const BASE_RURAL: [f64; 7] = [36000.0, 22000.0, 9000.0, 4500.0, 1800.0, 700.0, 320.0];
-const BASE_URBAN: [f64; 7] = [58000.0, 40000.0, 17000.0, 8500.0, 3800.0, 1700.0, 650.0];
-/// Plausible AADT range by class.
-const AADT_RANGE: [(f64, f64); 7] = [
-    (20000.0, 90000.0),
-    (12000.0, 70000.0),
-    (5000.0, 40000.0),
-    (2000.0, 20000.0),
-    (800.0, 9000.0),
-    (300.0, 3500.0),
-    (200.0, 2000.0),
-];
-const HEAVY_RURAL: [f64; 7] = [0.20, 0.14, 0.10, 0.08, 0.07, 0.06, 0.04];
-const HEAVY_URBAN: [f64; 7] = [0.10, 0.08, 0.06, 0.05, 0.04, 0.03, 0.02];
 /// Share of heavies that are single-unit (classes 4-7), by functional class.
 const SINGLE_UNIT_OF_HEAVY: [f64; 7] = [0.30, 0.35, 0.45, 0.55, 0.60, 0.65, 0.75];
 /// Relative weights of classes 4..=7 within single-unit and 8..=13 within combination
@@ -443,19 +414,28 @@ const SINGLE_UNIT_OF_HEAVY: [f64; 7] = [0.30, 0.35, 0.45, 0.55, 0.60, 0.65, 0.75
 const SINGLE_UNIT_MIX: [f64; 4] = [0.12, 0.62, 0.20, 0.06];
 const COMBINATION_MIX: [f64; 6] = [0.10, 0.76, 0.03, 0.07, 0.02, 0.02];
 
+/// Access traffic (trips to and from the frontage, both directions) by class, rural and urban,
+/// vehicles/day: the floor under the assigned through traffic.
+const ACCESS_RURAL: [f64; 7] = [600.0, 500.0, 450.0, 400.0, 350.0, 260.0, 200.0];
+const ACCESS_URBAN: [f64; 7] = [1500.0, 1200.0, 1000.0, 800.0, 600.0, 450.0, 300.0];
+/// Median assigned light and heavy traffic on the interstate, vehicles/day: sets the scale
+/// of the relative flows.
+const INTERSTATE_LIGHT: f64 = 30000.0;
+const INTERSTATE_HEAVY: f64 = 4500.0;
+
 fn assign_traffic(net: &mut Network, rng: &mut ChaCha8Rng) {
-    let field = SmoothField::new(rng, 0.25, 12.0, 12);
-    let std_normal = Normal::new(0.0, 1.0).expect("unit sd");
+    let gateways = net.gateways.clone();
+    let flows = super::traffic::assign(net, rng, &gateways);
+    let interstate = |s: usize| net.segments[s].class == 1;
+    let k_light = INTERSTATE_LIGHT / super::traffic::median_where(&flows.light, interstate);
+    let k_heavy = INTERSTATE_HEAVY / super::traffic::median_where(&flows.heavy, interstate);
+    let std_normal: Normal<f64> = Normal::new(0.0, 1.0).expect("unit sd");
     let routes = net.routes.clone();
     for route in &routes {
-        let offset = 0.12 * std_normal.sample(rng);
         let pattern_draw: f64 = rng.gen();
-        let rho: f64 = 0.85;
-        let mut walk = 0.15 * std_normal.sample(rng);
         for &s in &route.segments {
-            walk = rho * walk + (1.0 - rho * rho).sqrt() * 0.15 * std_normal.sample(rng);
-            let iid = 0.05 * std_normal.sample(rng);
-            let heavy_noise = 0.2 * std_normal.sample(rng);
+            let access_noise = (0.5 * std_normal.sample(rng)).exp();
+            let local_noise = (0.08 * std_normal.sample(rng)).exp();
             let su_noise = rng.gen_range(-0.05..0.05);
             let car_vs_light_truck = rng.gen_range(0.62..0.74);
             let (mx, my) = midpoint(net, s);
@@ -463,31 +443,20 @@ fn assign_traffic(net: &mut Network, rng: &mut ChaCha8Rng) {
             let lake_district = mx < 0.45 * net.extent_km && my > 0.55 * net.extent_km;
             let seg = &mut net.segments[s];
             let c = (seg.class - 1) as usize;
-            let base = if seg.urban {
-                BASE_URBAN[c]
-            } else {
-                BASE_RURAL[c]
-            };
-            let lanes_effect =
-                0.18 * (seg.lanes as f64 - usual_lanes(seg.class, seg.urban, seg.oneway) as f64);
-            let mut aadt =
-                (base.ln() + lanes_effect + offset + walk + iid + field.at(mx, my)).exp();
-            if seg.oneway {
-                // One direction of a street that would carry both.
-                aadt *= 0.6;
-            }
-            let (lo, hi) = AADT_RANGE[c];
-            seg.aadt = aadt.clamp(lo, hi).round();
+            let access = access_noise
+                * if seg.urban {
+                    ACCESS_URBAN[c]
+                } else {
+                    ACCESS_RURAL[c]
+                };
+            let light = k_light * flows.light[s] + 0.97 * access;
+            let heavy = k_heavy * flows.heavy[s] + 0.03 * access;
+            seg.aadt = ((light + heavy) * local_noise).clamp(50.0, 150_000.0).round();
             seg.pattern = pick_pattern(seg.class, seg.urban, lake_district, pattern_draw);
             seg.inbound_fwd = inbound_fwd;
-            let heavy_base = if seg.urban {
-                HEAVY_URBAN[c]
-            } else {
-                HEAVY_RURAL[c]
-            };
-            let heavy = (heavy_base * heavy_noise.exp()).clamp(0.01, 0.40);
+            let heavy_share = (heavy / (light + heavy)).clamp(0.005, 0.45);
             let su = (SINGLE_UNIT_OF_HEAVY[c] + su_noise).clamp(0.05, 0.95);
-            seg.class_mix = class_mix(heavy, su, car_vs_light_truck);
+            seg.class_mix = class_mix(heavy_share, su, car_vs_light_truck);
         }
     }
 }

@@ -46,6 +46,7 @@
 
 pub mod kriging;
 pub mod lognormal;
+pub mod history;
 pub mod network_drift;
 mod optimize;
 pub mod stage;

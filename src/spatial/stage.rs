@@ -32,6 +32,7 @@
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
+use super::history::{HistoryPoint, HistoryVariance};
 use super::network_drift::RouteNeighbours;
 use super::{
     empirical_variogram, fit_variogram, CovarianceModel, Kriger, KrigingData, KrigingParams,
@@ -87,6 +88,19 @@ pub struct Observation {
     pub log_aadt: f64,
     /// Variance of ln AADT from its measurement.
     pub meas_var: f64,
+    /// What measured it.
+    pub kind: ObservationKind,
+}
+
+/// What an observation comes from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum ObservationKind {
+    /// A permanent counter of the study year.
+    Counter,
+    /// Short counts expanded to the study year.
+    ShortCount,
+    /// A published AADT of this earlier year, brought forward ([`super::history`]).
+    History(i32),
 }
 
 /// An estimate with a 95 % interval, vehicles/day.
@@ -136,6 +150,8 @@ pub struct SegmentEstimate {
     pub neighbours: usize,
     /// Fallbacks the kriging system needed, as text (empty when none).
     pub fallback: String,
+    /// Year of the segment's own published AADT used as an observation, if any.
+    pub history_year: Option<i32>,
 }
 
 /// One leave-one-out fold.
@@ -151,6 +167,9 @@ pub struct CvPoint {
     pub regression: Interval,
     /// Mean by functional class and area.
     pub class_mean: Interval,
+    /// Whether the fold used the segment's own history in place of its count (as an
+    /// uncounted segment with history would).
+    pub with_history: bool,
 }
 
 /// What the stage produced.
@@ -173,6 +192,10 @@ pub struct SpatialOutput {
     /// Uncounted segments estimated, and those whose estimate fell back from kriging with
     /// external drift (by fallback step).
     pub diagnostics: StageDiagnostics,
+    /// Variance model of history brought forward.
+    pub history_variance: Option<HistoryVariance>,
+    /// Uncounted segments that have history.
+    pub history_used: usize,
 }
 
 /// Regression terms of a segment.
@@ -284,7 +307,7 @@ fn regression(
     exclude: Option<usize>,
     params: &SpatialParams,
 ) -> Option<Fit> {
-    let kept: Vec<&Observation> = obs.iter().filter(|o| Some(o.segment) != exclude).collect();
+    let kept: Vec<&Observation> = obs.iter().collect();
     let full = kept.len() >= params.full_model_min_counts;
     let x: Vec<Vec<f64>> = kept
         .iter()
@@ -402,6 +425,8 @@ pub struct SpatialInput<'a> {
     pub network: &'a Network,
     /// The counted segments' ln AADT with their measurement variance.
     pub observations: &'a [Observation],
+    /// Latest published AADT of earlier years, brought forward, one per segment at most.
+    pub history: &'a [HistoryPoint],
 }
 
 /// Runs the stage: estimates for every segment that is not observed, and the validation.
@@ -433,6 +458,7 @@ pub fn run(input: &SpatialInput, params: &SpatialParams) -> Result<SpatialOutput
                         log_var: v,
                         neighbours: obs.len(),
                         fallback: "mean of fewer than three counts".into(),
+                        history_year: None,
                     });
                 }
             }
@@ -445,46 +471,72 @@ pub fn run(input: &SpatialInput, params: &SpatialParams) -> Result<SpatialOutput
     }
     let mids = net.midpoints_km();
     let mut counted = vec![false; n_seg];
-    let mut y_by_seg = vec![f64::NAN; n_seg];
     for o in obs {
         counted[o.segment] = true;
+    }
+    let (hist_var, hist_obs) = history_observations(obs, input.history, &counted);
+    out.history_variance = Some(hist_var);
+    out.history_used = hist_obs.iter().filter(|h| !counted[h.segment]).count();
+    // Every observation: this year's counts, then the history of segments without one.
+    let all: Vec<Observation> = obs
+        .iter()
+        .copied()
+        .chain(hist_obs.iter().copied().filter(|h| !counted[h.segment]))
+        .collect();
+    let mut observed = vec![false; n_seg];
+    let mut y_by_seg = vec![f64::NAN; n_seg];
+    for o in &all {
+        observed[o.segment] = true;
         y_by_seg[o.segment] = o.log_aadt;
     }
-    let routes = RouteNeighbours::build(net, &counted, params.route_reach_km);
+    let routes = RouteNeighbours::build(net, &observed, params.route_reach_km);
     let sf = speed_fill(net);
-    let fit = regression(net, obs, &y_by_seg, &routes, &sf, None, params)
-        .ok_or(SpatialError::DriftUnsolvable { counted: obs.len() })?;
+    let fit = regression(net, &all, &y_by_seg, &routes, &sf, None, params)
+        .ok_or(SpatialError::DriftUnsolvable { counted: all.len() })?;
     out.coefficients = term_names(fit.full)
         .into_iter()
         .zip(fit.beta.iter().copied())
         .collect();
     out.residual_var = fit.residual_var;
-    let f_obs: Vec<f64> = obs
+    let f_obs: Vec<f64> = all
         .iter()
         .map(|o| drift_of(net, &fit, o.segment, &y_by_seg, &routes, &sf, None))
         .collect();
-    let xy: Vec<[f64; 2]> = obs.iter().map(|o| mids[o.segment]).collect();
-    let resid: Vec<f64> = obs
+    let xy: Vec<[f64; 2]> = all.iter().map(|o| mids[o.segment]).collect();
+    let resid: Vec<f64> = all
         .iter()
         .zip(&f_obs)
         .map(|(o, f)| o.log_aadt - f)
         .collect();
-    let meas: Vec<f64> = obs.iter().map(|o| o.meas_var).collect();
+    let meas: Vec<f64> = all.iter().map(|o| o.meas_var).collect();
     let (vfit, model, note) = fit_model(&xy, &resid, &meas, params.variogram_lags);
     out.variogram = vfit;
     out.model = Some(model);
-    out.model_note = note;
+    out.model_note = format!(
+        "{note}; {} uncounted segments observed through history ({})",
+        out.history_used,
+        history_note(&hist_var)
+    );
     let kparams = KrigingParams {
         neighbours: params.neighbours,
         ..KrigingParams::new(model)
     };
     let data = KrigingData {
-        xy: xy.clone(),
-        value: obs.iter().map(|o| o.log_aadt).collect(),
+        xy,
+        value: all.iter().map(|o| o.log_aadt).collect(),
         drift: f_obs.iter().map(|f| vec![*f]).collect(),
-        meas_var: meas.clone(),
+        meas_var: meas,
     };
     let kriger = Kriger::new(data, kparams)?;
+    let history_year: Vec<Option<i32>> = {
+        let mut v = vec![None; n_seg];
+        for o in &all {
+            if let ObservationKind::History(y) = o.kind {
+                v[o.segment] = Some(y);
+            }
+        }
+        v
+    };
     let targets: Vec<usize> = (0..n_seg).filter(|&s| !counted[s]).collect();
     let tgt: Vec<Target> = targets
         .iter()
@@ -493,7 +545,19 @@ pub fn run(input: &SpatialInput, params: &SpatialParams) -> Result<SpatialOutput
             drift: vec![drift_of(net, &fit, s, &y_by_seg, &routes, &sf, None)],
         })
         .collect();
-    for (&s, p) in targets.iter().zip(kriger.predict_many(&tgt)) {
+    let index_of: Vec<Option<usize>> = {
+        let mut v = vec![None; n_seg];
+        for (i, o) in all.iter().enumerate() {
+            v[o.segment] = Some(i);
+        }
+        v
+    };
+    let predictions: Vec<Result<super::Prediction, SpatialError>> = targets
+        .par_iter()
+        .zip(&tgt)
+        .map(|(&s, t)| kriger.predict_without(t.xy, &t.drift, index_of[s]))
+        .collect();
+    for ((&s, t), p) in targets.iter().zip(&tgt).zip(predictions) {
         match &p {
             Ok(p) => out
                 .diagnostics
@@ -502,104 +566,200 @@ pub fn run(input: &SpatialInput, params: &SpatialParams) -> Result<SpatialOutput
                 .diagnostics
                 .record([("regression only: kriging could not solve", true)]),
         }
-        let est = match p {
-            Ok(p) => SegmentEstimate {
-                aadt: Interval::from_log(p.value, p.variance_with_nugget),
-                log_mean: p.value,
-                log_var: p.variance_with_nugget,
-                neighbours: p.neighbours.len(),
-                fallback: fallback_text(&p),
-            },
-            Err(e) => {
-                // Regression alone, with its residual variance, when kriging cannot solve.
-                let m = tgt[targets.iter().position(|&t| t == s).expect("target")].drift[0];
-                SegmentEstimate {
-                    aadt: Interval::from_log(m, fit.residual_var),
-                    log_mean: m,
-                    log_var: fit.residual_var,
-                    neighbours: 0,
-                    fallback: format!("regression only: {e}"),
-                }
-            }
+        let (m, v, neighbours, fallback) = match p {
+            Ok(p) => (
+                p.value,
+                p.variance_with_nugget,
+                p.neighbours.len(),
+                fallback_text(&p),
+            ),
+            // Regression alone, with its residual variance, when kriging cannot solve.
+            Err(e) => (
+                t.drift[0],
+                fit.residual_var,
+                0,
+                format!("regression only: {e}"),
+            ),
         };
-        out.estimates[s] = Some(est);
+        let (m, v) = match index_of[s] {
+            Some(i) => combine((m, v), (all[i].log_aadt, all[i].meas_var)),
+            None => (m, v),
+        };
+        out.estimates[s] = Some(SegmentEstimate {
+            aadt: Interval::from_log(m, v),
+            log_mean: m,
+            log_var: v,
+            neighbours,
+            fallback,
+            history_year: history_year[s],
+        });
     }
-    out.cv = (0..obs.len())
-        .into_par_iter()
-        .filter_map(|j| {
-            cv_fold(
-                net, obs, j, &y_by_seg, &routes, &sf, &mids, &kparams, params,
-            )
-        })
-        .collect();
+    let own_history: Vec<Option<Observation>> = {
+        let mut v = vec![None; n_seg];
+        for h in &hist_obs {
+            v[h.segment] = Some(*h);
+        }
+        v
+    };
+    let ctx = Folds {
+        net,
+        all: &all,
+        own_history: &own_history,
+        y_by_seg: &y_by_seg,
+        routes: &routes,
+        sf: &sf,
+        mids: &mids,
+        kparams: &kparams,
+        params,
+    };
+    out.cv = obs.par_iter().filter_map(|o| ctx.fold(o)).collect();
     Ok(out)
 }
 
-#[allow(clippy::too_many_arguments)]
-fn cv_fold(
-    net: &Network,
+/// History of the segments in `history` as observations, with the variance model calibrated
+/// on the short-count segments that also have history ([`super::history`]).
+fn history_observations(
     obs: &[Observation],
-    j: usize,
-    y_by_seg: &[f64],
-    routes: &RouteNeighbours,
-    sf: &[f64; 8],
-    mids: &[[f64; 2]],
-    kparams: &KrigingParams,
-    params: &SpatialParams,
-) -> Option<CvPoint> {
-    let target = obs[j];
-    let excl = Some(target.segment);
-    let fit = regression(net, obs, y_by_seg, routes, sf, excl, params)?;
-    let others: Vec<&Observation> = obs.iter().filter(|o| o.segment != target.segment).collect();
-    let data = KrigingData {
-        xy: others.iter().map(|o| mids[o.segment]).collect(),
-        value: others.iter().map(|o| o.log_aadt).collect(),
-        drift: others
-            .iter()
-            .map(|o| vec![drift_of(net, &fit, o.segment, y_by_seg, routes, sf, excl)])
-            .collect(),
-        meas_var: others.iter().map(|o| o.meas_var).collect(),
-    };
-    let f_j = drift_of(net, &fit, target.segment, y_by_seg, routes, sf, excl);
-    // The observed value carries its own measurement error: judge coverage against the
-    // prediction variance plus that error.
-    let kriged = Kriger::new(data, *kparams)
-        .ok()
-        .and_then(|k| k.predict(mids[target.segment], &[f_j]).ok())
-        .map(|p| Interval::from_log(p.value, p.variance_with_nugget + target.meas_var))
-        .unwrap_or_else(|| Interval::from_log(f_j, fit.residual_var + target.meas_var));
-    let regression = Interval::from_log(f_j, fit.residual_var + target.meas_var);
-    let seg = &net.segments[target.segment];
-    let same = |o: &&Observation, strict: bool| {
-        let s = &net.segments[o.segment];
-        s.functional_class == seg.functional_class && (!strict || s.area == seg.area)
-    };
-    let mut pool: Vec<f64> = others
+    history: &[HistoryPoint],
+    counted: &[bool],
+) -> (HistoryVariance, Vec<Observation>) {
+    let mut count_of = vec![None; counted.len()];
+    for o in obs {
+        if o.kind == ObservationKind::ShortCount {
+            count_of[o.segment] = Some(*o);
+        }
+    }
+    let pairs: Vec<(f64, f64, f64)> = history
         .iter()
-        .filter(|o| same(o, true))
-        .map(|o| o.log_aadt)
+        .filter_map(|h| {
+            count_of[h.segment].map(|c| (h.age, c.log_aadt - h.log_now, c.meas_var))
+        })
         .collect();
-    if pool.len() < 2 {
-        pool = others
+    let var = HistoryVariance::calibrate(&pairs);
+    let points = history
+        .iter()
+        .filter(|h| h.log_now.is_finite())
+        .map(|h| Observation {
+            segment: h.segment,
+            log_aadt: h.log_now,
+            meas_var: var.at(h.age),
+            kind: ObservationKind::History(h.year),
+        })
+        .collect();
+    (var, points)
+}
+
+fn history_note(v: &HistoryVariance) -> String {
+    let how = if v.pairs == 0 {
+        "assumed: too few short-count segments with history to calibrate".to_string()
+    } else {
+        format!("calibrated on {} short-count segments with history", v.pairs)
+    };
+    format!(
+        "history variance {:.4} + {:.4} per year of age, {how}",
+        v.a, v.b
+    )
+}
+
+/// Inverse-variance combination of the spatial prediction of a segment (from its neighbours,
+/// its micro-scale variation included) with the segment's own observation: the posterior of a
+/// normal prior and a normal measurement.
+fn combine(prior: (f64, f64), own: (f64, f64)) -> (f64, f64) {
+    let (wp, wo) = (1.0 / prior.1.max(1e-12), 1.0 / own.1.max(1e-12));
+    ((wp * prior.0 + wo * own.0) / (wp + wo), 1.0 / (wp + wo))
+}
+
+/// What every leave-one-out fold shares.
+struct Folds<'a> {
+    net: &'a Network,
+    all: &'a [Observation],
+    own_history: &'a [Option<Observation>],
+    y_by_seg: &'a [f64],
+    routes: &'a RouteNeighbours,
+    sf: &'a [f64; 8],
+    mids: &'a [[f64; 2]],
+    kparams: &'a KrigingParams,
+    params: &'a SpatialParams,
+}
+
+impl Folds<'_> {
+    /// Leaves out the count of `target`'s segment (its regression row, kriging datum and
+    /// every route term); the segment's own history, if any, takes its place, as it would for
+    /// an uncounted segment.
+    fn fold(&self, target: &Observation) -> Option<CvPoint> {
+        let (net, routes, sf, y) = (self.net, self.routes, self.sf, self.y_by_seg);
+        let excl = Some(target.segment);
+        let hist = self.own_history[target.segment];
+        let kept: Vec<Observation> = self
+            .all
             .iter()
-            .filter(|o| same(o, false))
+            .filter(|o| o.segment != target.segment)
+            .copied()
+            .chain(hist)
+            .collect();
+        let fit = regression(net, &kept, y, routes, sf, excl, self.params)?;
+        let data = KrigingData {
+            xy: kept.iter().map(|o| self.mids[o.segment]).collect(),
+            value: kept.iter().map(|o| o.log_aadt).collect(),
+            drift: kept
+                .iter()
+                .map(|o| vec![drift_of(net, &fit, o.segment, y, routes, sf, excl)])
+                .collect(),
+            meas_var: kept.iter().map(|o| o.meas_var).collect(),
+        };
+        let f_j = drift_of(net, &fit, target.segment, y, routes, sf, excl);
+        // The observed value carries its own measurement error: judge coverage against the
+        // prediction variance plus that error.
+        let own = hist.map(|_| kept.len() - 1);
+        let (m, v) = Kriger::new(data, *self.kparams)
+            .ok()
+            .and_then(|k| k.predict_without(self.mids[target.segment], &[f_j], own).ok())
+            .map_or((f_j, fit.residual_var), |p| (p.value, p.variance_with_nugget));
+        let (m, v) = match hist {
+            Some(h) => combine((m, v), (h.log_aadt, h.meas_var)),
+            None => (m, v),
+        };
+        let kriged = Interval::from_log(m, v + target.meas_var);
+        let regression = Interval::from_log(f_j, fit.residual_var + target.meas_var);
+        let seg = &net.segments[target.segment];
+        // The simple alternative: this year's counts of the same class (and area).
+        let others: Vec<&Observation> = self
+            .all
+            .iter()
+            .filter(|o| o.segment != target.segment && !matches!(o.kind, ObservationKind::History(_)))
+            .collect();
+        let same = |o: &&&Observation, strict: bool| {
+            let s = &net.segments[o.segment];
+            s.functional_class == seg.functional_class && (!strict || s.area == seg.area)
+        };
+        let mut pool: Vec<f64> = others
+            .iter()
+            .filter(|o| same(o, true))
             .map(|o| o.log_aadt)
             .collect();
+        if pool.len() < 2 {
+            pool = others
+                .iter()
+                .filter(|o| same(o, false))
+                .map(|o| o.log_aadt)
+                .collect();
+        }
+        if pool.len() < 2 {
+            pool = others.iter().map(|o| o.log_aadt).collect();
+        }
+        let n = pool.len() as f64;
+        let m = pool.iter().sum::<f64>() / n;
+        let v = pool.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (n - 1.0).max(1.0);
+        let class_mean = Interval::from_log(m, v * (1.0 + 1.0 / n) + target.meas_var);
+        Some(CvPoint {
+            segment: target.segment,
+            observed: target.log_aadt.exp(),
+            kriged,
+            regression,
+            class_mean,
+            with_history: hist.is_some(),
+        })
     }
-    if pool.len() < 2 {
-        pool = others.iter().map(|o| o.log_aadt).collect();
-    }
-    let n = pool.len() as f64;
-    let m = pool.iter().sum::<f64>() / n;
-    let v = pool.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (n - 1.0).max(1.0);
-    let class_mean = Interval::from_log(m, v * (1.0 + 1.0 / n) + target.meas_var);
-    Some(CvPoint {
-        segment: target.segment,
-        observed: target.log_aadt.exp(),
-        kriged,
-        regression,
-        class_mean,
-    })
 }
 
 #[cfg(test)]

@@ -169,6 +169,17 @@ impl Kriger {
         self.predict_excluding(xy, drift, None)
     }
 
+    /// Estimate at `xy` without datum `exclude` (a target's own observation, to be combined
+    /// with the prediction afterwards).
+    pub fn predict_without(
+        &self,
+        xy: [f64; 2],
+        drift: &[f64],
+        exclude: Option<usize>,
+    ) -> Result<Prediction, SpatialError> {
+        self.predict_excluding(xy, drift, exclude)
+    }
+
     /// Estimates at many targets, in parallel; one result per target, in order.
     pub fn predict_many(&self, targets: &[Target]) -> Vec<Result<Prediction, SpatialError>> {
         targets
