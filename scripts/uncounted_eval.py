@@ -40,14 +40,15 @@ def main(study, out):
         t = truth[s["segment_id"]]
         a, lo, hi = float(s["aadt"]), float(s["aadt_lo95"]), float(s["aadt_hi95"])
         base = med.get((s["functional_class"], s["area"]), med.get((s["functional_class"], None)))
-        for g in (group(int(s["functional_class"])), "all"):
+        hist = "history" if s.get("history_year") else "no_history"
+        for g in (group(int(s["functional_class"])), group(int(s["functional_class"])) + "/" + hist, "all"):
             e, b, c = table[g]
             e.append(abs(a - t) / t * 100)
             if base is not None:
                 b.append(abs(base - t) / t * 100)
             c.append(lo <= t <= hi)
     print(f"{'group':<16}{'n':>6}{'mdAPE %':>9}{'class-area %':>14}{'ratio':>7}{'cover95':>9}")
-    for g in ("freeway", "arterial", "collector_local", "all"):
+    for g in sorted(table):
         if g not in table:
             continue
         e, b, c = table[g]

@@ -7,8 +7,8 @@ use crate::expansion::stage::ExpansionOutput;
 use crate::expansion::Z95;
 use crate::factors::precision::FactorStats;
 use crate::factors::stage::FactorOutput;
-use crate::model::{Network, StationList};
 use crate::model::HistoryRecord;
+use crate::model::{Network, StationList};
 use crate::spatial::history::HistoryPoint;
 use crate::spatial::stage::{Interval, Observation, ObservationKind, SpatialOutput};
 

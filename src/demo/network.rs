@@ -451,7 +451,9 @@ fn assign_traffic(net: &mut Network, rng: &mut ChaCha8Rng) {
                 };
             let light = k_light * flows.light[s] + 0.97 * access;
             let heavy = k_heavy * flows.heavy[s] + 0.03 * access;
-            seg.aadt = ((light + heavy) * local_noise).clamp(50.0, 150_000.0).round();
+            seg.aadt = ((light + heavy) * local_noise)
+                .clamp(50.0, 150_000.0)
+                .round();
             seg.pattern = pick_pattern(seg.class, seg.urban, lake_district, pattern_draw);
             seg.inbound_fwd = inbound_fwd;
             let heavy_share = (heavy / (light + heavy)).clamp(0.005, 0.45);

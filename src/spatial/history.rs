@@ -13,8 +13,8 @@
 //! uncertainty. Both are calibrated on the study itself: segments counted this year by a short
 //! count (the segments that resemble the uncounted ones, whose history also comes from
 //! coverage counts) that also have history give `d = y_count − y_history`, and
-//! `Var d − v_count` by age is fitted by least squares through `a` and `b` (robust variance:
-//! `(1.4826 · MAD)²` per age). With fewer than [`MIN_PAIRS`] pairs the defaults of
+//! `E d² − v_count` by age is fitted by weighted least squares through `a` and `b` (pairs
+//! beyond 5 robust sd, `1.4826 · MAD`, left out as gross errors). With fewer than [`MIN_PAIRS`] pairs the defaults of
 //! [`HistoryVariance::assumed`] hold (assumptions, stated in the model note).
 
 /// A segment's latest published AADT brought to the study year.
@@ -82,7 +82,15 @@ impl HistoryVariance {
             let n = d.len() as f64;
             let med = median(&mut d);
             let mut dev: Vec<f64> = d.iter().map(|x| (x - med).abs()).collect();
-            let var = (1.4826 * median(&mut dev)).powi(2) + med * med;
+            let mad = 1.4826 * median(&mut dev);
+            // Mean square about zero (a bias of the history is part of its error), without
+            // gross outliers (beyond 5 robust sd: a wrong segment id, a road rebuilt).
+            let kept: Vec<f64> = d
+                .iter()
+                .copied()
+                .filter(|x| (x - med).abs() <= 5.0 * mad)
+                .collect();
+            let var = kept.iter().map(|x| x * x).sum::<f64>() / kept.len().max(1) as f64;
             pts.push((age as f64, (var - v / n).max(0.0), n));
         }
         let fallback = HistoryVariance::assumed();
@@ -122,8 +130,8 @@ fn median(v: &mut [f64]) -> f64 {
 mod tests {
     use super::*;
 
-    /// Pairs drawn with a known `a` and `b` give them back (the robust variance of a normal
-    /// sample, 1.4826 MAD, is consistent for sigma: Rousseeuw & Croux 1993).
+    /// Pairs drawn with a known `a` and `b` give them back (a 5-sd trim of a normal sample
+    /// keeps all but about 6e-7 of it, so the mean square stays consistent).
     #[test]
     fn calibration_recovers_known_variances() {
         use rand::SeedableRng;
@@ -141,6 +149,9 @@ mod tests {
         let fit = HistoryVariance::calibrate(&pairs);
         assert!((fit.a - a).abs() < 0.004, "{fit:?}");
         assert!((fit.b - b).abs() < 0.0015, "{fit:?}");
-        assert_eq!(HistoryVariance::calibrate(&pairs[..5]), HistoryVariance::assumed());
+        assert_eq!(
+            HistoryVariance::calibrate(&pairs[..5]),
+            HistoryVariance::assumed()
+        );
     }
 }

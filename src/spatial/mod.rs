@@ -44,9 +44,10 @@
 //! * PyKrige (Murphy et al.), <https://github.com/GeoStat-Framework/PyKrige>, used to generate
 //!   the reference fixture in `tests/fixtures/kriging/`.
 
+pub mod betweenness;
+pub mod history;
 pub mod kriging;
 pub mod lognormal;
-pub mod history;
 pub mod network_drift;
 mod optimize;
 pub mod stage;

@@ -32,6 +32,7 @@
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
+use super::betweenness::{betweenness, Betweenness};
 use super::history::{HistoryPoint, HistoryVariance};
 use super::network_drift::RouteNeighbours;
 use super::{
@@ -62,10 +63,15 @@ pub struct SpatialParams {
     /// leave-one-out folds apply the same rule to their own count, so a study of exactly this
     /// many counts validates the reduced model.
     pub full_model_min_counts: usize,
+    /// Origins sampled for the betweenness terms ([`super::betweenness`]). Default 256.
+    pub betweenness_origins: usize,
+    /// Krige each class group's residuals from its own group only (freeways, arterials,
+    /// collectors and locals). Default true.
+    pub within_class_group: bool,
 }
 
 /// Coefficients of the full drift model (see [`SpatialParams::full_model_min_counts`]).
-pub const FULL_MODEL_TERMS: usize = 12;
+pub const FULL_MODEL_TERMS: usize = 17;
 
 impl Default for SpatialParams {
     fn default() -> Self {
@@ -75,6 +81,8 @@ impl Default for SpatialParams {
             variogram_lags: 12,
             ridge: 1e-3,
             full_model_min_counts: 40,
+            betweenness_origins: 256,
+            within_class_group: true,
         }
     }
 }
@@ -170,6 +178,150 @@ pub struct CvPoint {
     /// Whether the fold used the segment's own history in place of its count (as an
     /// uncounted segment with history would).
     pub with_history: bool,
+    /// What measured the left-out segment.
+    pub kind: ObservationKind,
+    /// Log-space prediction of the kriged estimate, before interval calibration.
+    pub log_mean: f64,
+    /// Its variance (the left-out count's own error not included).
+    pub pred_var: f64,
+    /// The left-out count's measurement variance.
+    pub meas_var: f64,
+}
+
+impl CvPoint {
+    /// The uncounted segments this fold stands for: class group and whether they have
+    /// history. A permanent counter's fold with history stands for none (its history is a
+    /// counter's, far more precise than a coverage count's).
+    pub fn cell(&self, net: &Network) -> Option<Cell> {
+        if self.with_history && self.kind == ObservationKind::Counter {
+            return None;
+        }
+        Some(Cell {
+            group: net.segments[self.segment].functional_class.broad_group(),
+            history: self.with_history,
+        })
+    }
+}
+
+/// A kind of uncounted segment: functional-class group x whether it has history.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub struct Cell {
+    /// `freeway`, `arterial` or `collector_local`.
+    pub group: &'static str,
+    /// Whether the segment has a published AADT of an earlier year.
+    pub history: bool,
+}
+
+/// The factor on the prediction variance of one cell that makes 95 % of its folds covered.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct IntervalScale {
+    /// The cell.
+    pub cell: Cell,
+    /// Folds of the cell.
+    pub folds: usize,
+    /// Uncounted segments of the cell.
+    pub uncounted: usize,
+    /// Factor on the log-space prediction variance (1 when too few folds).
+    pub factor: f64,
+}
+
+/// Folds a cell needs for its own factor; below it the class group's, else the study's.
+pub const MIN_CALIBRATION_FOLDS: usize = 30;
+
+/// The factor `f` with `|y − m| ≤ 1.96 √(f·v + v_meas)` on 95 % of `folds` (bisection on
+/// `ln f` in [1/4, 16]).
+fn coverage_factor(folds: &[&CvPoint]) -> f64 {
+    let share = |f: f64| {
+        folds
+            .iter()
+            .filter(|p| {
+                (p.observed.ln() - p.log_mean).abs() <= Z_95 * (f * p.pred_var + p.meas_var).sqrt()
+            })
+            .count() as f64
+            / folds.len() as f64
+    };
+    let (mut lo, mut hi) = (0.25f64.ln(), 16f64.ln());
+    if share(lo.exp()) >= 0.95 {
+        return lo.exp();
+    }
+    if share(hi.exp()) < 0.95 {
+        return hi.exp();
+    }
+    for _ in 0..40 {
+        let mid = 0.5 * (lo + hi);
+        if share(mid.exp()) >= 0.95 {
+            hi = mid;
+        } else {
+            lo = mid;
+        }
+    }
+    hi.exp()
+}
+
+/// Interval factors per cell from the folds, and how many uncounted segments each has.
+fn interval_scales(
+    net: &Network,
+    cv: &[CvPoint],
+    uncounted: &[(usize, bool)],
+) -> Vec<IntervalScale> {
+    let cells_of = |p: &CvPoint| p.cell(net);
+    let all: Vec<&CvPoint> = cv.iter().filter(|p| cells_of(p).is_some()).collect();
+    let study = if all.len() >= MIN_CALIBRATION_FOLDS {
+        coverage_factor(&all)
+    } else {
+        1.0
+    };
+    let mut cells: Vec<Cell> = uncounted
+        .iter()
+        .map(|&(s, h)| Cell {
+            group: net.segments[s].functional_class.broad_group(),
+            history: h,
+        })
+        .collect();
+    cells.sort();
+    cells.dedup();
+    cells
+        .into_iter()
+        .map(|cell| {
+            let own: Vec<&CvPoint> = all
+                .iter()
+                .copied()
+                .filter(|p| cells_of(p) == Some(cell))
+                .collect();
+            let group: Vec<&CvPoint> = all
+                .iter()
+                .copied()
+                .filter(|p| cells_of(p).is_some_and(|c| c.group == cell.group))
+                .collect();
+            let factor = if cell.history {
+                // The history variance is calibrated on its own pairs; the folds may only
+                // widen it (their error includes the left-out count's own).
+                if own.len() >= MIN_CALIBRATION_FOLDS {
+                    coverage_factor(&own).max(1.0)
+                } else {
+                    1.0
+                }
+            } else if own.len() >= MIN_CALIBRATION_FOLDS {
+                coverage_factor(&own)
+            } else if group.len() >= MIN_CALIBRATION_FOLDS {
+                coverage_factor(&group)
+            } else {
+                study
+            };
+            IntervalScale {
+                cell,
+                folds: own.len(),
+                uncounted: uncounted
+                    .iter()
+                    .filter(|&&(s, h)| {
+                        h == cell.history
+                            && net.segments[s].functional_class.broad_group() == cell.group
+                    })
+                    .count(),
+                factor,
+            }
+        })
+        .collect()
 }
 
 /// What the stage produced.
@@ -196,16 +348,13 @@ pub struct SpatialOutput {
     pub history_variance: Option<HistoryVariance>,
     /// Uncounted segments that have history.
     pub history_used: usize,
+    /// Interval calibration by cell (class group x history), from the folds.
+    pub interval_scales: Vec<IntervalScale>,
 }
 
 /// Regression terms of a segment.
-fn covariates(
-    net: &Network,
-    seg: usize,
-    level: Option<f64>,
-    speed_fill: &[f64; 8],
-    full: bool,
-) -> Vec<f64> {
+fn covariates(net: &Network, seg: usize, level: Option<f64>, aux: &Aux, full: bool) -> Vec<f64> {
+    let speed_fill = &aux.speed_fill;
     let s = &net.segments[seg];
     let fc = s.functional_class.code() as usize;
     let mut x = vec![1.0];
@@ -217,11 +366,22 @@ fn covariates(
         x.push(f64::from(matches!(fc, 3 | 4)));
         x.push(f64::from(fc >= 5));
     }
-    x.push(f64::from(s.area == Area::Urban));
+    let urban = f64::from(s.area == Area::Urban);
+    x.push(urban);
+    if full {
+        // Towns lift a collector far more than a freeway: the urban effect by class group.
+        x.push(urban * f64::from(matches!(fc, 3 | 4)));
+        x.push(urban * f64::from(fc >= 5));
+    }
     x.push((s.lanes as f64).ln());
     if full {
         x.push(s.speed_limit_kph.unwrap_or(speed_fill[fc]) / 100.0);
     }
+    let local = aux.betweenness.local.get(seg).map_or(0.0, |b| b.ln_1p());
+    let regional = aux.betweenness.regional.get(seg).map_or(0.0, |b| b.ln_1p());
+    x.push(local);
+    x.push(regional);
+    x.push(if fc >= 5 { local } else { 0.0 });
     x.push(level.unwrap_or(0.0));
     x.push(f64::from(level.is_some()));
     x
@@ -239,10 +399,17 @@ fn term_names(full: bool) -> Vec<String> {
         n.push("collector_local".into());
     }
     n.push("urban".into());
+    if full {
+        n.push("urban_arterial".into());
+        n.push("urban_collector_local".into());
+    }
     n.push("ln_lanes".into());
     if full {
         n.push("speed_limit_per_100kph".into());
     }
+    n.push("ln_betweenness_local".into());
+    n.push("ln_betweenness_regional".into());
+    n.push("ln_betweenness_local_collector_local".into());
     n.push("route_level".into());
     n.push("has_route_level".into());
     n
@@ -291,6 +458,12 @@ fn speed_fill(net: &Network) -> [f64; 8] {
     out
 }
 
+/// Network facts the regression terms use, computed once per run.
+struct Aux {
+    speed_fill: [f64; 8],
+    betweenness: Betweenness,
+}
+
 /// Everything the regression and kriging need, for one set of observations.
 struct Fit {
     beta: Vec<f64>,
@@ -303,7 +476,7 @@ fn regression(
     obs: &[Observation],
     y_by_seg: &[f64],
     routes: &RouteNeighbours,
-    sf: &[f64; 8],
+    aux: &Aux,
     exclude: Option<usize>,
     params: &SpatialParams,
 ) -> Option<Fit> {
@@ -316,7 +489,7 @@ fn regression(
                 net,
                 o.segment,
                 routes.level(o.segment, y_by_seg, exclude),
-                sf,
+                aux,
                 full,
             )
         })
@@ -343,11 +516,17 @@ fn drift_of(
     seg: usize,
     y_by_seg: &[f64],
     routes: &RouteNeighbours,
-    sf: &[f64; 8],
+    aux: &Aux,
     exclude: Option<usize>,
 ) -> f64 {
     dot(
-        &covariates(net, seg, routes.level(seg, y_by_seg, exclude), sf, fit.full),
+        &covariates(
+            net,
+            seg,
+            routes.level(seg, y_by_seg, exclude),
+            aux,
+            fit.full,
+        ),
         &fit.beta,
     )
 }
@@ -490,8 +669,12 @@ pub fn run(input: &SpatialInput, params: &SpatialParams) -> Result<SpatialOutput
         y_by_seg[o.segment] = o.log_aadt;
     }
     let routes = RouteNeighbours::build(net, &observed, params.route_reach_km);
-    let sf = speed_fill(net);
-    let fit = regression(net, &all, &y_by_seg, &routes, &sf, None, params)
+    let speed_fill = speed_fill(net);
+    let aux = Aux {
+        betweenness: betweenness(net, params.betweenness_origins, &speed_fill),
+        speed_fill,
+    };
+    let fit = regression(net, &all, &y_by_seg, &routes, &aux, None, params)
         .ok_or(SpatialError::DriftUnsolvable { counted: all.len() })?;
     out.coefficients = term_names(fit.full)
         .into_iter()
@@ -500,7 +683,7 @@ pub fn run(input: &SpatialInput, params: &SpatialParams) -> Result<SpatialOutput
     out.residual_var = fit.residual_var;
     let f_obs: Vec<f64> = all
         .iter()
-        .map(|o| drift_of(net, &fit, o.segment, &y_by_seg, &routes, &sf, None))
+        .map(|o| drift_of(net, &fit, o.segment, &y_by_seg, &routes, &aux, None))
         .collect();
     let xy: Vec<[f64; 2]> = all.iter().map(|o| mids[o.segment]).collect();
     let resid: Vec<f64> = all
@@ -527,7 +710,35 @@ pub fn run(input: &SpatialInput, params: &SpatialParams) -> Result<SpatialOutput
         drift: f_obs.iter().map(|f| vec![*f]).collect(),
         meas_var: meas,
     };
-    let kriger = Kriger::new(data, kparams)?;
+    let kriger = Kriger::new(data.clone(), kparams)?;
+    // One kriging system per class group: a local street's residual is read from other
+    // collectors and locals, not from the arterial beside it.
+    let group_of = |seg: usize| net.segments[seg].functional_class.broad_group();
+    let mut by_group: Vec<(&'static str, Kriger, Vec<Option<usize>>)> = Vec::new();
+    if params.within_class_group {
+        let mut groups: Vec<&'static str> = all.iter().map(|o| group_of(o.segment)).collect();
+        groups.sort();
+        groups.dedup();
+        for g in groups {
+            let members: Vec<usize> = (0..all.len())
+                .filter(|&i| group_of(all[i].segment) == g)
+                .collect();
+            if members.len() < params.neighbours.min(8) {
+                continue;
+            }
+            let sub = KrigingData {
+                xy: members.iter().map(|&i| data.xy[i]).collect(),
+                value: members.iter().map(|&i| data.value[i]).collect(),
+                drift: members.iter().map(|&i| data.drift[i].clone()).collect(),
+                meas_var: members.iter().map(|&i| data.meas_var[i]).collect(),
+            };
+            let mut local = vec![None; n_seg];
+            for (k, &i) in members.iter().enumerate() {
+                local[all[i].segment] = Some(k);
+            }
+            by_group.push((g, Kriger::new(sub, kparams)?, local));
+        }
+    }
     let history_year: Vec<Option<i32>> = {
         let mut v = vec![None; n_seg];
         for o in &all {
@@ -542,7 +753,7 @@ pub fn run(input: &SpatialInput, params: &SpatialParams) -> Result<SpatialOutput
         .iter()
         .map(|&s| Target {
             xy: mids[s],
-            drift: vec![drift_of(net, &fit, s, &y_by_seg, &routes, &sf, None)],
+            drift: vec![drift_of(net, &fit, s, &y_by_seg, &routes, &aux, None)],
         })
         .collect();
     let index_of: Vec<Option<usize>> = {
@@ -555,7 +766,12 @@ pub fn run(input: &SpatialInput, params: &SpatialParams) -> Result<SpatialOutput
     let predictions: Vec<Result<super::Prediction, SpatialError>> = targets
         .par_iter()
         .zip(&tgt)
-        .map(|(&s, t)| kriger.predict_without(t.xy, &t.drift, index_of[s]))
+        .map(
+            |(&s, t)| match by_group.iter().find(|b| b.0 == group_of(s)) {
+                Some((_, k, local)) => k.predict_without(t.xy, &t.drift, local[s]),
+                None => kriger.predict_without(t.xy, &t.drift, index_of[s]),
+            },
+        )
         .collect();
     for ((&s, t), p) in targets.iter().zip(&tgt).zip(predictions) {
         match &p {
@@ -607,12 +823,30 @@ pub fn run(input: &SpatialInput, params: &SpatialParams) -> Result<SpatialOutput
         own_history: &own_history,
         y_by_seg: &y_by_seg,
         routes: &routes,
-        sf: &sf,
+        aux: &aux,
         mids: &mids,
         kparams: &kparams,
         params,
     };
     out.cv = obs.par_iter().filter_map(|o| ctx.fold(o)).collect();
+    // Intervals calibrated by cell on the folds that stand for it.
+    let uncounted: Vec<(usize, bool)> = targets
+        .iter()
+        .map(|&s| (s, history_year[s].is_some()))
+        .collect();
+    out.interval_scales = interval_scales(net, &out.cv, &uncounted);
+    for &(s, h) in &uncounted {
+        let group = net.segments[s].functional_class.broad_group();
+        let f = out
+            .interval_scales
+            .iter()
+            .find(|c| c.cell.group == group && c.cell.history == h)
+            .map_or(1.0, |c| c.factor);
+        if let Some(e) = out.estimates[s].as_mut() {
+            e.log_var *= f;
+            e.aadt = Interval::from_log(e.log_mean, e.log_var);
+        }
+    }
     Ok(out)
 }
 
@@ -631,11 +865,15 @@ fn history_observations(
     }
     let pairs: Vec<(f64, f64, f64)> = history
         .iter()
-        .filter_map(|h| {
-            count_of[h.segment].map(|c| (h.age, c.log_aadt - h.log_now, c.meas_var))
-        })
+        .filter_map(|h| count_of[h.segment].map(|c| (h.age, c.log_aadt - h.log_now, c.meas_var)))
         .collect();
-    let var = HistoryVariance::calibrate(&pairs);
+    // A coverage count's published figure was itself an expanded short count: it is at
+    // least as uncertain as this year's (their median measurement variance).
+    let mut short: Vec<f64> = count_of.iter().flatten().map(|c| c.meas_var).collect();
+    short.sort_by(f64::total_cmp);
+    let floor = short.get(short.len() / 2).copied().unwrap_or(0.0);
+    let mut var = HistoryVariance::calibrate(&pairs);
+    var.a = var.a.max(floor);
     let points = history
         .iter()
         .filter(|h| h.log_now.is_finite())
@@ -653,7 +891,10 @@ fn history_note(v: &HistoryVariance) -> String {
     let how = if v.pairs == 0 {
         "assumed: too few short-count segments with history to calibrate".to_string()
     } else {
-        format!("calibrated on {} short-count segments with history", v.pairs)
+        format!(
+            "calibrated on {} short-count segments with history",
+            v.pairs
+        )
     };
     format!(
         "history variance {:.4} + {:.4} per year of age, {how}",
@@ -676,7 +917,7 @@ struct Folds<'a> {
     own_history: &'a [Option<Observation>],
     y_by_seg: &'a [f64],
     routes: &'a RouteNeighbours,
-    sf: &'a [f64; 8],
+    aux: &'a Aux,
     mids: &'a [[f64; 2]],
     kparams: &'a KrigingParams,
     params: &'a SpatialParams,
@@ -687,7 +928,7 @@ impl Folds<'_> {
     /// every route term); the segment's own history, if any, takes its place, as it would for
     /// an uncounted segment.
     fn fold(&self, target: &Observation) -> Option<CvPoint> {
-        let (net, routes, sf, y) = (self.net, self.routes, self.sf, self.y_by_seg);
+        let (net, routes, aux, y) = (self.net, self.routes, self.aux, self.y_by_seg);
         let excl = Some(target.segment);
         let hist = self.own_history[target.segment];
         let kept: Vec<Observation> = self
@@ -697,36 +938,56 @@ impl Folds<'_> {
             .copied()
             .chain(hist)
             .collect();
-        let fit = regression(net, &kept, y, routes, sf, excl, self.params)?;
+        let fit = regression(net, &kept, y, routes, aux, excl, self.params)?;
+        let group = net.segments[target.segment].functional_class.broad_group();
+        let same: Vec<Observation> = kept
+            .iter()
+            .copied()
+            .filter(|o| net.segments[o.segment].functional_class.broad_group() == group)
+            .collect();
+        let kept = if self.params.within_class_group && same.len() >= self.params.neighbours.min(8)
+        {
+            same
+        } else {
+            kept
+        };
         let data = KrigingData {
             xy: kept.iter().map(|o| self.mids[o.segment]).collect(),
             value: kept.iter().map(|o| o.log_aadt).collect(),
             drift: kept
                 .iter()
-                .map(|o| vec![drift_of(net, &fit, o.segment, y, routes, sf, excl)])
+                .map(|o| vec![drift_of(net, &fit, o.segment, y, routes, aux, excl)])
                 .collect(),
             meas_var: kept.iter().map(|o| o.meas_var).collect(),
         };
-        let f_j = drift_of(net, &fit, target.segment, y, routes, sf, excl);
+        let f_j = drift_of(net, &fit, target.segment, y, routes, aux, excl);
         // The observed value carries its own measurement error: judge coverage against the
         // prediction variance plus that error.
         let own = hist.map(|_| kept.len() - 1);
         let (m, v) = Kriger::new(data, *self.kparams)
             .ok()
-            .and_then(|k| k.predict_without(self.mids[target.segment], &[f_j], own).ok())
-            .map_or((f_j, fit.residual_var), |p| (p.value, p.variance_with_nugget));
+            .and_then(|k| {
+                k.predict_without(self.mids[target.segment], &[f_j], own)
+                    .ok()
+            })
+            .map_or((f_j, fit.residual_var), |p| {
+                (p.value, p.variance_with_nugget)
+            });
         let (m, v) = match hist {
             Some(h) => combine((m, v), (h.log_aadt, h.meas_var)),
             None => (m, v),
         };
         let kriged = Interval::from_log(m, v + target.meas_var);
+        let (log_mean, pred_var) = (m, v);
         let regression = Interval::from_log(f_j, fit.residual_var + target.meas_var);
         let seg = &net.segments[target.segment];
         // The simple alternative: this year's counts of the same class (and area).
         let others: Vec<&Observation> = self
             .all
             .iter()
-            .filter(|o| o.segment != target.segment && !matches!(o.kind, ObservationKind::History(_)))
+            .filter(|o| {
+                o.segment != target.segment && !matches!(o.kind, ObservationKind::History(_))
+            })
             .collect();
         let same = |o: &&&Observation, strict: bool| {
             let s = &net.segments[o.segment];
@@ -758,6 +1019,10 @@ impl Folds<'_> {
             regression,
             class_mean,
             with_history: hist.is_some(),
+            kind: target.kind,
+            log_mean,
+            pred_var,
+            meas_var: target.meas_var,
         })
     }
 }

@@ -23,6 +23,8 @@ struct Rec<'a> {
     seg: &'a crate::model::Segment,
     r: &'a SegmentRow,
     note: &'a str,
+    /// Year of the history an estimate rests on.
+    history_year: Option<i32>,
 }
 
 impl Rec<'_> {
@@ -133,7 +135,11 @@ pub fn segment_statistics(data: &StudyData, rows: &[SegmentRow], spatial: &Spati
         .col("length_km", "km", Format::Decimal(3), |x| {
             Cell::from(x.seg.length_km)
         })
-        .col("estimate_note", "", Format::Text, |x| Cell::from(x.note));
+        .col("estimate_note", "", Format::Text, |x| Cell::from(x.note))
+        .col("history_year", "", Format::Integer, |x| {
+            x.history_year
+                .map_or(Cell::Empty, |y| Cell::Int(i64::from(y)))
+        });
     let recs: Vec<Rec> = rows
         .iter()
         .map(|r| Rec {
@@ -145,6 +151,12 @@ pub fn segment_statistics(data: &StudyData, rows: &[SegmentRow], spatial: &Spati
                 .and_then(|e| e.as_ref())
                 .filter(|_| r.basis == crate::segments::Basis::Estimated)
                 .map_or("", |e| e.fallback.as_str()),
+            history_year: spatial
+                .estimates
+                .get(r.segment)
+                .and_then(|e| e.as_ref())
+                .filter(|_| r.basis == crate::segments::Basis::Estimated)
+                .and_then(|e| e.history_year),
         })
         .collect();
     spec.build(&recs)

@@ -113,6 +113,32 @@ pub fn spatial_model(sp: &SpatialOutput) -> Table {
             Cell::from("micro-scale variance"),
         ]);
     }
+    if let Some(h) = &sp.history_variance {
+        t.push(vec![
+            Cell::from("history_variance_base"),
+            Cell::from(h.a),
+            Cell::from("ln AADT squared, published figure"),
+        ]);
+        t.push(vec![
+            Cell::from("history_variance_per_year"),
+            Cell::from(h.b),
+            Cell::from("ln AADT squared per year of age"),
+        ]);
+    }
+    for c in &sp.interval_scales {
+        t.push(vec![
+            Cell::from(format!(
+                "interval_factor_{}_{}",
+                c.cell.group,
+                if c.cell.history { "history" } else { "no_history" }
+            )),
+            Cell::from(c.factor),
+            Cell::from(format!(
+                "factor on the prediction variance from {} leave-one-out folds, applied to {} uncounted segments",
+                c.folds, c.uncounted
+            )),
+        ]);
+    }
     t.push(vec![
         Cell::from("model"),
         Cell::Empty,
