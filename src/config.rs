@@ -134,6 +134,11 @@ impl Settings {
                 terms + 1
             )));
         }
+        if self.spatial.betweenness_origins == 0 {
+            return Err(bad(
+                "[spatial] betweenness_origins = 0: at least one origin is needed".to_string(),
+            ));
+        }
         let g = &self.segments;
         let r = g.share_borrow_reach_km;
         if !(r > 0.0 && r <= 1000.0) {
@@ -332,8 +337,8 @@ mod tests {
     fn model_switches_and_cvs_are_range_checked() {
         for (text, needle) in [
             (
-                "[spatial]\nfull_model_min_counts = 12",
-                "full_model_min_counts = 12",
+                "[spatial]\nfull_model_min_counts = 17",
+                "full_model_min_counts = 17",
             ),
             ("[segments]\ncounter_d_cv = 1.5", "counter_d_cv = 1.5"),
             (
@@ -349,10 +354,10 @@ mod tests {
             assert!(e.contains(needle), "{text}: {e}");
         }
         let s = Settings::parse(
-            "[spatial]\nfull_model_min_counts = 13\n[segments]\npeak_ratio_cv = 0.0",
+            "[spatial]\nfull_model_min_counts = 18\n[segments]\npeak_ratio_cv = 0.0",
         )
         .unwrap();
-        assert_eq!(s.spatial.full_model_min_counts, 13);
+        assert_eq!(s.spatial.full_model_min_counts, 18);
         assert_eq!(s.segments.peak_ratio_cv, 0.0);
     }
 

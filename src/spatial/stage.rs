@@ -54,14 +54,13 @@ pub struct SpatialParams {
     /// Ridge penalty on the regression coefficients (guards against classes absent from the
     /// counts). Default 1e-3.
     pub ridge: f64,
-    /// Counted segments from which the drift regression uses the full model (one term per
-    /// functional class 2-7 and the speed limit: 12 coefficients) instead of the reduced one
-    /// (arterial / collector-local, 6 coefficients). Default 40: 40 counts leave 28 residual
-    /// degrees of freedom for 12 coefficients, more than three counts per coefficient, so a
-    /// class dummy rarely rests on one or two counts (a rule of thumb, common practice in
-    /// regression: several observations per parameter; not a published threshold). The
-    /// leave-one-out folds apply the same rule to their own count, so a study of exactly this
-    /// many counts validates the reduced model.
+    /// Observations (counted segments and segments with history) from which the drift
+    /// regression uses the full model (one term per functional class 2-7, urban by class
+    /// group, the speed limit: [`FULL_MODEL_TERMS`] coefficients) instead of the reduced one
+    /// (arterial / collector-local). Default 60: more than three observations per coefficient,
+    /// so a class dummy rarely rests on one or two counts (a rule of thumb, common practice in
+    /// regression; not a published threshold). The leave-one-out folds apply the same rule to
+    /// their own count.
     pub full_model_min_counts: usize,
     /// Origins sampled for the betweenness terms ([`super::betweenness`]). Default 256.
     pub betweenness_origins: usize,
@@ -80,7 +79,7 @@ impl Default for SpatialParams {
             route_reach_km: 30.0,
             variogram_lags: 12,
             ridge: 1e-3,
-            full_model_min_counts: 40,
+            full_model_min_counts: 60,
             betweenness_origins: 256,
             within_class_group: true,
         }
