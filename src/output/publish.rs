@@ -307,53 +307,6 @@ pub fn report_data(r: &Results, tables: &BTreeMap<String, Table>) -> ReportData 
         }
     }
     let q = &r.qc.summary;
-    let mut qc = Table::new(
-        "qc_summary",
-        "Station-days accepted, flagged and rejected per station",
-        vec![
-            col("station_id", "", Format::Text),
-            col("accepted", "days", Format::Integer),
-            col("flagged", "days", Format::Integer),
-            col("rejected", "days", Format::Integer),
-        ],
-    );
-    let mut per: BTreeMap<usize, (usize, usize, usize)> = BTreeMap::new();
-    for (si, days) in r.data.counts.days.iter().enumerate() {
-        for day in days.values() {
-            let e = per.entry(si).or_default();
-            for d in crate::model::Direction::ALL {
-                if day.dir(d).is_some() {
-                    e.0 += 1;
-                }
-            }
-        }
-    }
-    let mut flagged: BTreeMap<
-        usize,
-        std::collections::BTreeSet<(chrono::NaiveDate, crate::model::Direction)>,
-    > = BTreeMap::new();
-    for f in &r.qc.findings {
-        if !r.qc.is_rejected(f.station, f.date, f.direction) {
-            flagged
-                .entry(f.station)
-                .or_default()
-                .insert((f.date, f.direction));
-        }
-    }
-    let mut rejected: BTreeMap<usize, usize> = BTreeMap::new();
-    for (s, _, _) in &r.qc.rejected {
-        *rejected.entry(*s).or_default() += 1;
-    }
-    for (s, (all, _, _)) in per {
-        let rej = rejected.get(&s).copied().unwrap_or(0);
-        let fl = flagged.get(&s).map_or(0, |x| x.len());
-        qc.push(vec![
-            Cell::from(r.data.stations.stations[s].id.as_str()),
-            Cell::from(all - rej),
-            Cell::from(fl),
-            Cell::from(rej),
-        ]);
-    }
     let extra: Vec<Table> = [
         "factor_groups",
         "toll_reconciliation",
@@ -380,7 +333,7 @@ pub fn report_data(r: &Results, tables: &BTreeMap<String, Table>) -> ReportData 
         weekday_factors: weekday,
         calibration: tables.get("short_count_calibration").cloned(),
         cross_validation: tables.get("cross_validation").cloned(),
-        qc_summary: Some(qc),
+        qc_summary: tables.get("qc_summary").cloned(),
         // The report shows the network rows and one row per class; the CSV has every area.
         network_totals: tables.get("network_totals").map(|t| {
             let mut t = t.clone();

@@ -331,3 +331,43 @@ fn both_directions_are_published_and_add_up() {
         }
     }
 }
+
+/// Every `<name>.csv` the report points to is written, and `qc_summary.csv` adds up: accepted
+/// (flags included) plus rejected is the station's direction-days, flagged within accepted.
+#[test]
+fn the_report_points_only_to_files_written_and_qc_adds_up() {
+    let out = tempfile::tempdir().unwrap();
+    run_demo(out.path());
+    let html = std::fs::read_to_string(out.path().join("report.html")).unwrap();
+    let mut named = 0;
+    for (i, _) in html.match_indices(".csv") {
+        let start = html[..i]
+            .rfind(|c: char| !(c.is_ascii_alphanumeric() || c == '_' || c == '/'))
+            .map_or(0, |j| j + 1);
+        let name = &html[start..i + 4];
+        if name.len() > 4 {
+            assert!(out.path().join(name).is_file(), "report names {name}");
+            named += 1;
+        }
+    }
+    assert!(named > 0, "the report names its CSV files");
+    let qc = csv_rows(&out.path().join("qc_summary.csv"));
+    assert_eq!(
+        qc[0],
+        [
+            "station_id",
+            "direction_days",
+            "accepted",
+            "flagged",
+            "rejected"
+        ]
+    );
+    let mut flagged = 0;
+    for r in &qc[1..] {
+        let n: Vec<u64> = r[1..].iter().map(|v| v.parse().unwrap()).collect();
+        assert_eq!(n[1] + n[3], n[0], "{r:?}");
+        assert!(n[2] <= n[1], "{r:?}");
+        flagged += n[2];
+    }
+    assert!(flagged > 0, "the demo has flagged days");
+}
