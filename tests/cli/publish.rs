@@ -151,6 +151,35 @@ fn geojson_has_one_line_per_segment_with_its_statistics() {
     let aadt: f64 = row[1].parse().unwrap();
     assert!((props["aadt"].as_f64().unwrap() - aadt).abs() < 0.5);
     assert_eq!(props["basis"].as_str().unwrap(), row[4]);
+    // Properties in the CSV's column order, route included; every column the CSV prints as
+    // a number (directional AADT included) is a JSON number, never a string.
+    let first_props = &text[text.find("\"properties\":{").unwrap() + 14..];
+    let first_props = &first_props[..first_props.find('}').unwrap()];
+    let keys: Vec<String> = first_props
+        .split(',')
+        .filter_map(|kv| {
+            kv.strip_prefix('"')
+                .map(|k| k[..k.find('"').unwrap()].to_string())
+        })
+        .collect();
+    assert_eq!(keys, seg[0], "property order");
+    assert!(seg[0].iter().any(|c| c == "route"));
+    for f in &fc.features {
+        let props = f.properties.as_ref().unwrap();
+        let id = props["segment_id"].as_str().unwrap();
+        let row = seg.iter().find(|r| r[0] == id).unwrap();
+        for (name, text) in seg[0].iter().zip(row) {
+            let v = &props[name.as_str()];
+            if text.is_empty() {
+                assert!(v.is_null(), "{id} {name}");
+            } else if text.parse::<f64>().is_ok() && name != "count_years" {
+                assert!(v.is_number(), "{id} {name} = {v}");
+            }
+        }
+        for name in ["aadt_fwd", "aadt_rev"] {
+            assert!(props[name].is_number(), "{id} {name}");
+        }
+    }
 }
 
 /// A station and a route whose names hold markup come out escaped in the report.
