@@ -112,6 +112,14 @@ fn workbook_sheets_match_the_csv_tables() {
         text.contains("licensed engineer"),
         "the caution is on the first sheet"
     );
+    // The shipped design defaults are stated from memory: flagged on the cover, on the
+    // design sheet's title (cover list) and in the report beside the design table.
+    assert!(text.contains("Design defaults from memory"), "{text}");
+    assert!(text.contains("factors/truck_factors.csv"));
+    assert!(text.contains("design_inputs: Pavement (AASHTO 1993) and capacity (HCM) inputs per segment; uses default tables stated from memory"));
+    let html = std::fs::read_to_string(out.path().join("report.html")).unwrap();
+    assert!(html.contains("uses default tables stated from memory"));
+    assert!(html.contains("Design defaults from memory"));
 }
 
 #[test]
