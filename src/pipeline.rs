@@ -224,11 +224,17 @@ pub fn alarms(r: &Results, settings: &crate::config::Settings) -> Vec<String> {
     out
 }
 
-/// Runs every stage and keeps their outputs (no files written).
+/// Runs every stage and keeps their outputs (no files written), with progress on a terminal.
 pub fn compute(config: &Config) -> Result<Results, PipelineError> {
-    let progress = Progress::new(config.quiet);
+    compute_with(config, &Progress::new(config.quiet))
+}
+
+/// [`compute`] with the given progress: a byte bar while reading, a spinner for each later
+/// step (quality control, counters and factors, calibration, expansion, kriging, design).
+pub fn compute_with(config: &Config, progress: &Progress) -> Result<Results, PipelineError> {
+    use crate::progress::step;
     let settings = &config.settings;
-    let data = input::read_study_with(&config.study, &config.settings.read_options(), &progress)?;
+    let data = input::read_study_with(&config.study, &config.settings.read_options(), progress)?;
     let year = study_year(config, &data).ok_or(PipelineError::NoYear)?;
     let qc_input = crate::qc::QcInput {
         counts: &data.counts,
@@ -236,7 +242,9 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
         network: &data.network,
         history: &data.history,
     };
-    let qc = crate::qc::run(&qc_input, &settings.qc);
+    let qc = step(progress, "quality control", || {
+        crate::qc::run(&qc_input, &settings.qc)
+    });
     let continuous_input = crate::continuous::stage::ContinuousInput {
         network: &data.network,
         stations: &data.stations,
@@ -244,7 +252,9 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
         year,
         filter: &qc,
     };
-    let continuous = crate::continuous::stage::run(&continuous_input, &settings.continuous);
+    let continuous = step(progress, "permanent counters", || {
+        crate::continuous::stage::run(&continuous_input, &settings.continuous)
+    });
     let factor_input = crate::factors::stage::FactorInput {
         network: &data.network,
         stations: &data.stations,
@@ -253,14 +263,18 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
         year,
         assignment: data.assignment.as_deref(),
     };
-    let factors = crate::factors::stage::run(&factor_input, &settings.factors)?;
-    let calibration = calibrate(
-        &data,
-        &continuous,
-        &factors,
-        &settings.expansion,
-        settings.factors.cell_factors,
-    );
+    let factors = step(progress, "factor groups", || {
+        crate::factors::stage::run(&factor_input, &settings.factors)
+    })?;
+    let calibration = step(progress, "calibration", || {
+        calibrate(
+            &data,
+            &continuous,
+            &factors,
+            &settings.expansion,
+            settings.factors.cell_factors,
+        )
+    });
     let expansion_input = crate::expansion::stage::ExpansionInput {
         network: &data.network,
         stations: &data.stations,
@@ -270,7 +284,9 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
         factors: &factors,
         calibration: &calibration,
     };
-    let expansion = crate::expansion::stage::run(&expansion_input, &settings.expansion);
+    let expansion = step(progress, "short counts", || {
+        crate::expansion::stage::run(&expansion_input, &settings.expansion)
+    });
     let obs = crate::segments::observations(&data.network, &data.stations, &continuous, &expansion);
     let history = crate::segments::history_points(&data.network, &data.history, &factors, year);
     let spatial_input = crate::spatial::stage::SpatialInput {
@@ -278,7 +294,9 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
         observations: &obs,
         history: &history,
     };
-    let spatial = crate::spatial::stage::run(&spatial_input, &settings.spatial)?;
+    let spatial = step(progress, "kriging", || {
+        crate::spatial::stage::run(&spatial_input, &settings.spatial)
+    })?;
     let segments = crate::segments::assemble(
         &crate::segments::SegmentsInput {
             network: &data.network,
@@ -306,7 +324,9 @@ pub fn compute(config: &Config) -> Result<Results, PipelineError> {
         factors: &factors,
         tables: &data.design_tables,
     };
-    let design = crate::design::stage::run(&design_input, &settings.design);
+    let design = step(progress, "design inputs", || {
+        crate::design::stage::run(&design_input, &settings.design)
+    });
     let totals = crate::totals::network_totals(&data.network, &segments);
     Ok(Results {
         data,

@@ -14,8 +14,10 @@
 
 use std::collections::HashMap;
 use std::fs::File;
-use std::io::{BufRead, BufReader};
+use std::io::{BufRead, BufReader, Read};
 use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicU64, Ordering};
+use std::sync::Arc;
 
 use flate2::read::MultiGzDecoder;
 
@@ -247,10 +249,32 @@ pub struct CsvFile {
     pub lines: LineReader<Box<dyn BufRead + Send>>,
     /// Line number of the header.
     pub header_line: u64,
+    /// Bytes read so far from the file on disk: the compressed bytes of a gzip file, so
+    /// progress compares like with like against the file's size (the line reader counts
+    /// decompressed bytes). Runs ahead of the parser by at most one read buffer.
+    pub file_bytes: Arc<AtomicU64>,
+}
+
+/// A reader that counts the bytes it hands out into a shared counter.
+struct Counting<R> {
+    inner: R,
+    count: Arc<AtomicU64>,
+}
+
+impl<R: Read> Read for Counting<R> {
+    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+        let n = self.inner.read(buf)?;
+        self.count.fetch_add(n as u64, Ordering::Relaxed);
+        Ok(n)
+    }
 }
 
 /// Opens `path` as a byte stream (gzip when `name` ends in `.gz`), buffered.
-fn open_stream(path: &Path, name: &str) -> Result<Box<dyn BufRead + Send>, InputError> {
+fn open_stream(
+    path: &Path,
+    name: &str,
+    count: &Arc<AtomicU64>,
+) -> Result<Box<dyn BufRead + Send>, InputError> {
     let rel = PathBuf::from(name);
     let meta = std::fs::metadata(path).map_err(|e| {
         if e.kind() == std::io::ErrorKind::NotFound && std::fs::symlink_metadata(path).is_err() {
@@ -272,6 +296,10 @@ fn open_stream(path: &Path, name: &str) -> Result<Box<dyn BufRead + Send>, Input
         path: rel.clone(),
         reason: e.to_string(),
     })?;
+    let file = Counting {
+        inner: file,
+        count: Arc::clone(count),
+    };
     Ok(if name.ends_with(".gz") {
         Box::new(BufReader::with_capacity(
             READ_BUFFER_BYTES,
@@ -311,7 +339,8 @@ impl CsvFile {
     /// Opens `path` (gzip when it ends in `.gz`) and reads its header row.
     pub fn open(path: &Path, name: &str) -> Result<CsvFile, InputError> {
         let rel = PathBuf::from(name);
-        let mut lines = LineReader::new(open_stream(path, name)?);
+        let file_bytes = Arc::new(AtomicU64::new(0));
+        let mut lines = LineReader::new(open_stream(path, name, &file_bytes)?);
         let header = match lines.next_line() {
             Ok(Some(l)) => parse_header(l, &rel)?,
             Ok(None) => {
@@ -335,6 +364,7 @@ impl CsvFile {
             header,
             lines,
             header_line,
+            file_bytes,
         })
     }
 

@@ -10,11 +10,12 @@
 //! Every column of the table becomes a property: numbers as JSON numbers at the precision the
 //! CSV table prints them (so the map and the table agree), text as strings, empty cells as
 //! `null` (not given is never the same as 0). The feature `id` is the segment id. Properties
-//! are written in name order (the JSON library keeps keys sorted), which keeps bytes stable.
+//! are written in the table's column order, the order of the CSV file (the JSON text is
+//! written here, since the JSON library would sort the keys), which keeps bytes stable.
 
 use std::path::{Path, PathBuf};
 
-use geojson::{Feature, FeatureCollection, Geometry, JsonObject, JsonValue, Value};
+use serde_json::Value as JsonValue;
 
 use super::table::{cell_text, Cell, Format, Table};
 use super::{write_atomic, OutputError};
@@ -55,7 +56,9 @@ pub fn render_segments_geojson(
         ),
     })?;
 
-    let mut features = Vec::with_capacity(table.rows.len());
+    let json = |v: &JsonValue| serde_json::to_string(v).expect("a JSON value serialises");
+    let mut out = String::from("{\"type\":\"FeatureCollection\",\"features\":[");
+    let mut first = true;
     for row in &table.rows {
         let id = match &row[id_col] {
             Cell::Text(s) => s.clone(),
@@ -67,33 +70,37 @@ pub fn render_segments_geojson(
         };
         let seg = &net.segments[si];
         let (a, b) = (&net.nodes[seg.from], &net.nodes[seg.to]);
-        let line = vec![
-            vec![round_coord(a.lon), round_coord(a.lat)],
-            vec![round_coord(b.lon), round_coord(b.lat)],
-        ];
-        let mut properties = JsonObject::new();
-        for (cell, col) in row.iter().zip(&table.columns) {
-            properties.insert(col.name.clone(), property_value(cell, col.format));
+        let coords: Vec<JsonValue> = [a.lon, a.lat, b.lon, b.lat]
+            .iter()
+            .map(|&v| {
+                serde_json::Number::from_f64(round_coord(v))
+                    .map_or(JsonValue::Null, JsonValue::Number)
+            })
+            .collect();
+        if !first {
+            out.push(',');
         }
-        features.push(Feature {
-            bbox: None,
-            geometry: Some(Geometry::new(Value::LineString(line))),
-            id: Some(geojson::feature::Id::String(id)),
-            properties: Some(properties),
-            foreign_members: None,
-        });
+        first = false;
+        out.push_str(&format!(
+            "{{\"type\":\"Feature\",\"id\":{},\"geometry\":{{\"type\":\"LineString\",\"coordinates\":[[{},{}],[{},{}]]}},\"properties\":{{",
+            json(&JsonValue::String(id)),
+            json(&coords[0]),
+            json(&coords[1]),
+            json(&coords[2]),
+            json(&coords[3]),
+        ));
+        for (i, (cell, col)) in row.iter().zip(&table.columns).enumerate() {
+            if i > 0 {
+                out.push(',');
+            }
+            out.push_str(&json(&JsonValue::String(col.name.clone())));
+            out.push(':');
+            out.push_str(&json(&property_value(cell, col.format)));
+        }
+        out.push_str("}}");
     }
-    let collection = FeatureCollection {
-        bbox: None,
-        features,
-        foreign_members: None,
-    };
-    let mut bytes = serde_json::to_vec(&collection).map_err(|e| OutputError::Format {
-        path: path(),
-        reason: e.to_string(),
-    })?;
-    bytes.push(b'\n');
-    Ok(bytes)
+    out.push_str("]}\n");
+    Ok(out.into_bytes())
 }
 
 /// Writes the segment map as `<dir>/<name>` (the name includes `.geojson`), atomically.
@@ -124,6 +131,8 @@ fn round_coord(v: f64) -> f64 {
 fn property_value(cell: &Cell, format: Format) -> JsonValue {
     match cell {
         Cell::Empty => JsonValue::Null,
+        // An empty text is an empty CSV cell too: null, like every other empty cell.
+        Cell::Text(s) if s.is_empty() => JsonValue::Null,
         Cell::Text(s) => JsonValue::String(s.clone()),
         Cell::Int(v) => JsonValue::from(*v),
         Cell::Num(v) if !v.is_finite() => JsonValue::Null,
@@ -146,7 +155,7 @@ mod tests {
     use std::str::FromStr;
 
     use approx::assert_abs_diff_eq;
-    use geojson::GeoJson;
+    use geojson::{GeoJson, Value};
 
     use super::*;
     use crate::model::ids::NodeId;
@@ -254,6 +263,18 @@ mod tests {
         assert_abs_diff_eq!(line[0][0], -73.9857, epsilon = 1e-9);
         assert_eq!(g.property("heavy_share"), Some(&JsonValue::Null));
         assert_eq!(g.property("aadt"), Some(&JsonValue::from(800)));
+    }
+
+    /// Properties follow the table's column order (here not alphabetical), as the CSV does.
+    #[test]
+    fn properties_keep_the_column_order() {
+        let bytes = render_segments_geojson(&network(), &table(), "segment_id").unwrap();
+        let text = String::from_utf8(bytes).unwrap();
+        let props = &text[text.find("\"properties\"").unwrap()..];
+        let at = |k: &str| props.find(&format!("\"{k}\":")).unwrap();
+        assert!(at("segment_id") < at("aadt"));
+        assert!(at("aadt") < at("heavy_share"));
+        assert!(at("heavy_share") < at("basis"));
     }
 
     #[test]

@@ -27,6 +27,7 @@ pub const OWN_FILES: &[&str] = &[
     "network_findings.csv",
     "network_totals.csv",
     "qc_log.csv",
+    "qc_summary.csv",
     "ranked_hours.csv",
     "rejected_rows.csv",
     "report.html",

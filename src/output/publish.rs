@@ -17,6 +17,58 @@ pub const CAUTION: &str = "Every figure here is an estimate with a stated uncert
 Pavement and capacity design follows local codes and a licensed engineer's judgement; these figures are \
 inputs to that judgement, not a substitute for it.";
 
+/// The design default tables in use whose stated source says "from memory", one line each:
+/// the file, what it feeds, and its distinct sources. Empty when every table in use cites a
+/// checked source (an agency's own tables in the study's `factors/`).
+pub fn memory_defaults(t: &crate::model::design_tables::DesignTables) -> Vec<String> {
+    fn line(file: &str, feeds: &str, sources: Vec<&str>) -> Option<String> {
+        let mut memory: Vec<&str> = sources
+            .into_iter()
+            .filter(|s| s.to_ascii_lowercase().contains("from memory"))
+            .collect();
+        memory.sort_unstable();
+        memory.dedup();
+        (!memory.is_empty()).then(|| format!("factors/{file} ({feeds}): {}", memory.join("; ")))
+    }
+    let lanes = t.lanes.rows();
+    [
+        line(
+            "lane_distribution.csv",
+            "lane distribution D_L, feeds the design-lane ESALs",
+            lanes.iter().map(|r| r.source.as_str()).collect(),
+        ),
+        line(
+            "truck_factors.csv",
+            "ESALs per truck, feed the truck factor and every ESAL figure",
+            t.trucks.rows().iter().map(|r| r.source.as_str()).collect(),
+        ),
+        line(
+            "hcm_defaults.csv",
+            "PHF and heavy share where the study measured none, feed the capacity inputs",
+            t.hcm.rows().iter().map(|r| r.source.as_str()).collect(),
+        ),
+    ]
+    .into_iter()
+    .flatten()
+    .collect()
+}
+
+/// The cover's and report's note on design defaults stated from memory.
+fn memory_note(t: &crate::model::design_tables::DesignTables) -> String {
+    let lines = memory_defaults(t);
+    if lines.is_empty() {
+        "none: every design table in use cites its source".to_string()
+    } else {
+        format!(
+            "the design figures (design_inputs: D_L, truck factor, ESALs, PHF and heavy share where marked HCM default) rest on these tables, whose values are stated from memory; replace them with checked or agency values in the study's factors/ folder. {}",
+            lines.join(" | ")
+        )
+    }
+}
+
+/// The flag shown beside design figures that rest on defaults stated "from memory".
+pub const MEMORY_FLAG: &str = "uses default tables stated from memory (see the cover or the report's design note): check them against the source before design use";
+
 /// `design_inputs.csv`: pavement and capacity inputs per segment; where a segment has none,
 /// `pavement_note` / `capacity_note` say why (never a silently blank row).
 pub fn design_table(data: &StudyData, rows: &[DesignRow], design_years: u32) -> Table {
@@ -29,171 +81,173 @@ pub fn design_table(data: &StudyData, rows: &[DesignRow], design_years: u32) -> 
     fn cap(f: fn(&CapacityInputs) -> Cell) -> impl Fn(&Row) -> Cell {
         move |r: &Row| r.1.capacity.as_ref().map_or(Cell::Empty, f)
     }
-    let spec = TableSpec::<Row>::new(
-        "design_inputs",
-        "Pavement (AASHTO 1993) and capacity (HCM) inputs per segment",
-    )
-    .col("segment_id", "", Format::Text, |r| Cell::from(r.0))
-    .col(
-        "heavy_aadt",
-        "veh/day",
-        Format::Integer,
-        pav(|p| Cell::from(p.heavy_aadt)),
-    )
-    .col(
-        "heavy_aadt_lo95",
-        "veh/day",
-        Format::Integer,
-        pav(|p| Cell::from(p.heavy_aadt_lo95)),
-    )
-    .col(
-        "heavy_aadt_hi95",
-        "veh/day",
-        Format::Integer,
-        pav(|p| Cell::from(p.heavy_aadt_hi95)),
-    )
-    .col(
-        "single_unit_aadt",
-        "veh/day",
-        Format::Integer,
-        pav(|p| Cell::from(p.su_aadt)),
-    )
-    .col(
-        "combination_aadt",
-        "veh/day",
-        Format::Integer,
-        pav(|p| Cell::from(p.cu_aadt)),
-    )
-    .col(
-        "directional_factor_dd",
-        "factor",
-        Format::Decimal(3),
-        pav(|p| Cell::from(p.d_d)),
-    )
-    .col(
-        "lanes_per_direction",
-        "",
-        Format::Integer,
-        pav(|p| Cell::from(p.lanes_per_direction)),
-    )
-    .col(
-        "lane_factor_dl",
-        "factor",
-        Format::Decimal(3),
-        pav(|p| Cell::from(p.d_l)),
-    )
-    .col(
-        "truck_factor",
-        "ESAL/truck",
-        Format::Decimal(3),
-        pav(|p| Cell::from(p.truck_factor)),
-    )
-    .col(
-        "annual_esal_design_lane",
-        "ESAL/yr",
-        Format::Integer,
-        pav(|p| Cell::from(p.annual_esal_design_lane)),
-    )
-    .col(
-        "annual_esal_lo95",
-        "ESAL/yr",
-        Format::Integer,
-        pav(|p| Cell::from(p.annual_esal_design_lane_lo95)),
-    )
-    .col(
-        "annual_esal_hi95",
-        "ESAL/yr",
-        Format::Integer,
-        pav(|p| Cell::from(p.annual_esal_design_lane_hi95)),
-    )
-    .col("growth_rate", "share/yr", Format::Share, |r| {
-        r.1.pavement
-            .as_ref()
-            .map_or(Cell::Empty, |_| Cell::from(r.1.growth_rate))
-    })
-    .col("design_years", "yr", Format::Integer, move |r| {
-        r.1.pavement
-            .as_ref()
-            .map_or(Cell::Empty, |_| Cell::from(design_years))
-    })
-    .col(
-        "growth_factor",
-        "factor",
-        Format::Decimal(3),
-        pav(|p| Cell::from(p.growth_factor)),
-    )
-    .col(
-        "cumulative_esal",
-        "ESAL",
-        Format::Integer,
-        pav(|p| Cell::from(p.cumulative_esal)),
-    )
-    .col(
-        "cumulative_esal_lo95",
-        "ESAL",
-        Format::Integer,
-        pav(|p| Cell::from(p.cumulative_esal_lo95)),
-    )
-    .col(
-        "cumulative_esal_hi95",
-        "ESAL",
-        Format::Integer,
-        pav(|p| Cell::from(p.cumulative_esal_hi95)),
-    )
-    .col(
-        "ddhv",
-        "veh/h",
-        Format::Integer,
-        cap(|c| Cell::from(c.ddhv)),
-    )
-    .col(
-        "ddhv_lo95",
-        "veh/h",
-        Format::Integer,
-        cap(|c| Cell::from(c.ddhv_lo95)),
-    )
-    .col(
-        "ddhv_hi95",
-        "veh/h",
-        Format::Integer,
-        cap(|c| Cell::from(c.ddhv_hi95)),
-    )
-    .col(
-        "peak_hour_factor",
-        "factor",
-        Format::Decimal(3),
-        cap(|c| Cell::from(c.phf)),
-    )
-    .col(
-        "phf_source",
-        "",
-        Format::Text,
-        cap(|c| Cell::from(c.phf_source.as_str())),
-    )
-    .col(
-        "design_hour_heavy_share",
-        "share",
-        Format::Share,
-        cap(|c| Cell::from(c.design_hour_heavy_share)),
-    )
-    .col(
-        "heavy_share_source",
-        "",
-        Format::Text,
-        cap(|c| Cell::from(c.hv_source.as_str())),
-    )
-    .col("pavement_note", "", Format::Text, |r| {
-        r.1.pavement
-            .as_ref()
-            .err()
-            .map_or(Cell::Empty, |g| Cell::from(g.to_string()))
-    })
-    .col("capacity_note", "", Format::Text, |r| {
-        r.1.capacity
-            .as_ref()
-            .err()
-            .map_or(Cell::Empty, |g| Cell::from(g.to_string()))
-    });
+    let title = if memory_defaults(&data.design_tables).is_empty() {
+        "Pavement (AASHTO 1993) and capacity (HCM) inputs per segment".to_string()
+    } else {
+        format!("Pavement (AASHTO 1993) and capacity (HCM) inputs per segment; {MEMORY_FLAG}")
+    };
+    let spec = TableSpec::<Row>::new("design_inputs", &title)
+        .col("segment_id", "", Format::Text, |r| Cell::from(r.0))
+        .col(
+            "heavy_aadt",
+            "veh/day",
+            Format::Integer,
+            pav(|p| Cell::from(p.heavy_aadt)),
+        )
+        .col(
+            "heavy_aadt_lo95",
+            "veh/day",
+            Format::Integer,
+            pav(|p| Cell::from(p.heavy_aadt_lo95)),
+        )
+        .col(
+            "heavy_aadt_hi95",
+            "veh/day",
+            Format::Integer,
+            pav(|p| Cell::from(p.heavy_aadt_hi95)),
+        )
+        .col(
+            "single_unit_aadt",
+            "veh/day",
+            Format::Integer,
+            pav(|p| Cell::from(p.su_aadt)),
+        )
+        .col(
+            "combination_aadt",
+            "veh/day",
+            Format::Integer,
+            pav(|p| Cell::from(p.cu_aadt)),
+        )
+        .col(
+            "directional_factor_dd",
+            "factor",
+            Format::Decimal(3),
+            pav(|p| Cell::from(p.d_d)),
+        )
+        .col(
+            "lanes_per_direction",
+            "",
+            Format::Integer,
+            pav(|p| Cell::from(p.lanes_per_direction)),
+        )
+        .col(
+            "lane_factor_dl",
+            "factor",
+            Format::Decimal(3),
+            pav(|p| Cell::from(p.d_l)),
+        )
+        .col(
+            "truck_factor",
+            "ESAL/truck",
+            Format::Decimal(3),
+            pav(|p| Cell::from(p.truck_factor)),
+        )
+        .col(
+            "annual_esal_design_lane",
+            "ESAL/yr",
+            Format::Integer,
+            pav(|p| Cell::from(p.annual_esal_design_lane)),
+        )
+        .col(
+            "annual_esal_lo95",
+            "ESAL/yr",
+            Format::Integer,
+            pav(|p| Cell::from(p.annual_esal_design_lane_lo95)),
+        )
+        .col(
+            "annual_esal_hi95",
+            "ESAL/yr",
+            Format::Integer,
+            pav(|p| Cell::from(p.annual_esal_design_lane_hi95)),
+        )
+        .col("growth_rate", "share/yr", Format::Share, |r| {
+            r.1.pavement
+                .as_ref()
+                .map_or(Cell::Empty, |_| Cell::from(r.1.growth_rate))
+        })
+        .col("design_years", "yr", Format::Integer, move |r| {
+            r.1.pavement
+                .as_ref()
+                .map_or(Cell::Empty, |_| Cell::from(design_years))
+        })
+        .col(
+            "growth_factor",
+            "factor",
+            Format::Decimal(3),
+            pav(|p| Cell::from(p.growth_factor)),
+        )
+        .col(
+            "cumulative_esal",
+            "ESAL",
+            Format::Integer,
+            pav(|p| Cell::from(p.cumulative_esal)),
+        )
+        .col(
+            "cumulative_esal_lo95",
+            "ESAL",
+            Format::Integer,
+            pav(|p| Cell::from(p.cumulative_esal_lo95)),
+        )
+        .col(
+            "cumulative_esal_hi95",
+            "ESAL",
+            Format::Integer,
+            pav(|p| Cell::from(p.cumulative_esal_hi95)),
+        )
+        .col(
+            "ddhv",
+            "veh/h",
+            Format::Integer,
+            cap(|c| Cell::from(c.ddhv)),
+        )
+        .col(
+            "ddhv_lo95",
+            "veh/h",
+            Format::Integer,
+            cap(|c| Cell::from(c.ddhv_lo95)),
+        )
+        .col(
+            "ddhv_hi95",
+            "veh/h",
+            Format::Integer,
+            cap(|c| Cell::from(c.ddhv_hi95)),
+        )
+        .col(
+            "peak_hour_factor",
+            "factor",
+            Format::Decimal(3),
+            cap(|c| Cell::from(c.phf)),
+        )
+        .col(
+            "phf_source",
+            "",
+            Format::Text,
+            cap(|c| Cell::from(c.phf_source.as_str())),
+        )
+        .col(
+            "design_hour_heavy_share",
+            "share",
+            Format::Share,
+            cap(|c| Cell::from(c.design_hour_heavy_share)),
+        )
+        .col(
+            "heavy_share_source",
+            "",
+            Format::Text,
+            cap(|c| Cell::from(c.hv_source.as_str())),
+        )
+        .col("pavement_note", "", Format::Text, |r| {
+            r.1.pavement
+                .as_ref()
+                .err()
+                .map_or(Cell::Empty, |g| Cell::from(g.to_string()))
+        })
+        .col("capacity_note", "", Format::Text, |r| {
+            r.1.capacity
+                .as_ref()
+                .err()
+                .map_or(Cell::Empty, |g| Cell::from(g.to_string()))
+        });
     let records: Vec<Row> = rows
         .iter()
         .map(|r| (data.network.segments[r.segment].id.as_str(), r))
@@ -255,17 +309,21 @@ pub fn cover(r: &Results, input_rows: u64) -> CoverSheet {
     CoverSheet {
         title: format!("Annual traffic statistics {}", r.year),
         lines: vec![
-            ("Study year".into(), r.year.to_string()),
-            ("Tool".into(), format!("roadtally {}", env!("CARGO_PKG_VERSION"))),
-            ("Input rows read".into(), input_rows.to_string()),
-            ("Input rows rejected".into(), r.data.rejected.len().to_string()),
-            ("Segments".into(), r.segments.len().to_string()),
-            ("From permanent counters".into(), basis[0].to_string()),
-            ("From short counts".into(), basis[1].to_string()),
-            ("Estimated (no count)".into(), basis[2].to_string()),
-            ("Short counts expanded".into(), r.expansion.counts.len().to_string()),
-            ("Station-days rejected by QC".into(), r.qc.summary.rejected.to_string()),
-            ("Methods".into(), "AASHTO AADT at permanent counters; TMG factor groups and factor application for short counts, with intervals calibrated on the counters; kriging with external drift on ln AADT for uncounted segments. See README and the report.".into()),
+            ("Study year".into(), Cell::Int(r.year.into())),
+            ("Tool".into(), Cell::from(format!("roadtally {}", env!("CARGO_PKG_VERSION")))),
+            ("Input rows read".into(), Cell::Int(input_rows as i64)),
+            ("Input rows rejected".into(), Cell::from(r.data.rejected.len())),
+            ("Segments".into(), Cell::from(r.segments.len())),
+            ("From permanent counters".into(), Cell::from(basis[0])),
+            ("From short counts".into(), Cell::from(basis[1])),
+            ("Estimated (no count)".into(), Cell::from(basis[2])),
+            ("Short counts expanded".into(), Cell::from(r.expansion.counts.len())),
+            ("Direction-days rejected by QC".into(), Cell::from(r.qc.summary.rejected)),
+            (
+                "Design defaults from memory".into(),
+                Cell::from(memory_note(&r.data.design_tables)),
+            ),
+            ("Methods".into(), Cell::from("AASHTO AADT at permanent counters; TMG factor groups and factor application for short counts, with intervals calibrated on the counters; kriging with external drift on ln AADT for uncounted segments. See README and the report.")),
         ],
         caution: CAUTION.into(),
     }
@@ -307,53 +365,6 @@ pub fn report_data(r: &Results, tables: &BTreeMap<String, Table>) -> ReportData 
         }
     }
     let q = &r.qc.summary;
-    let mut qc = Table::new(
-        "qc_summary",
-        "Station-days accepted, flagged and rejected per station",
-        vec![
-            col("station_id", "", Format::Text),
-            col("accepted", "days", Format::Integer),
-            col("flagged", "days", Format::Integer),
-            col("rejected", "days", Format::Integer),
-        ],
-    );
-    let mut per: BTreeMap<usize, (usize, usize, usize)> = BTreeMap::new();
-    for (si, days) in r.data.counts.days.iter().enumerate() {
-        for day in days.values() {
-            let e = per.entry(si).or_default();
-            for d in crate::model::Direction::ALL {
-                if day.dir(d).is_some() {
-                    e.0 += 1;
-                }
-            }
-        }
-    }
-    let mut flagged: BTreeMap<
-        usize,
-        std::collections::BTreeSet<(chrono::NaiveDate, crate::model::Direction)>,
-    > = BTreeMap::new();
-    for f in &r.qc.findings {
-        if !r.qc.is_rejected(f.station, f.date, f.direction) {
-            flagged
-                .entry(f.station)
-                .or_default()
-                .insert((f.date, f.direction));
-        }
-    }
-    let mut rejected: BTreeMap<usize, usize> = BTreeMap::new();
-    for (s, _, _) in &r.qc.rejected {
-        *rejected.entry(*s).or_default() += 1;
-    }
-    for (s, (all, _, _)) in per {
-        let rej = rejected.get(&s).copied().unwrap_or(0);
-        let fl = flagged.get(&s).map_or(0, |x| x.len());
-        qc.push(vec![
-            Cell::from(r.data.stations.stations[s].id.as_str()),
-            Cell::from(all - rej),
-            Cell::from(fl),
-            Cell::from(rej),
-        ]);
-    }
     let extra: Vec<Table> = [
         "factor_groups",
         "toll_reconciliation",
@@ -374,13 +385,14 @@ pub fn report_data(r: &Results, tables: &BTreeMap<String, Table>) -> ReportData 
             ("Direction-days checked".into(), q.direction_days.to_string()),
             ("Direction-days rejected / flagged".into(), format!("{} / {}", q.rejected, q.flagged)),
             ("Input rows rejected".into(), r.data.rejected.len().to_string()),
+            ("Design defaults from memory".into(), memory_note(&r.data.design_tables)),
         ],
         map,
         monthly_factors: monthly,
         weekday_factors: weekday,
         calibration: tables.get("short_count_calibration").cloned(),
         cross_validation: tables.get("cross_validation").cloned(),
-        qc_summary: Some(qc),
+        qc_summary: tables.get("qc_summary").cloned(),
         // The report shows the network rows and one row per class; the CSV has every area.
         network_totals: tables.get("network_totals").map(|t| {
             let mut t = t.clone();
@@ -435,4 +447,31 @@ pub fn manifest(
     let mut out = serde_json::to_vec_pretty(&doc).expect("json");
     out.push(b'\n');
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::design_tables::{DesignTables, LaneDistribution};
+
+    /// The shipped defaults (factors/*.csv) state their sources "from memory": all three are
+    /// flagged; a lane table whose rows cite a checked source is not.
+    #[test]
+    fn defaults_from_memory_are_named_and_checked_tables_are_not() {
+        let t = DesignTables::default();
+        let lines = memory_defaults(&t);
+        assert_eq!(lines.len(), 3, "{lines:?}");
+        assert!(lines[0].starts_with("factors/lane_distribution.csv"));
+        let mut rows = t.lanes.rows();
+        for r in &mut rows {
+            r.source = "agency pavement manual, table 4".into();
+        }
+        let checked = DesignTables {
+            lanes: LaneDistribution::from_rows(rows).unwrap(),
+            ..DesignTables::default()
+        };
+        let lines = memory_defaults(&checked);
+        assert_eq!(lines.len(), 2);
+        assert!(lines.iter().all(|l| !l.contains("lane_distribution")));
+    }
 }

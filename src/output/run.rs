@@ -57,8 +57,11 @@ pub fn run_study(
 ) -> Result<RunOutcome, RunError> {
     let config = Config::new(study, Some(out), year, quiet)?;
     super::place::check_target(study, out)?;
-    let results = pipeline::compute(&config)?;
-    let report = write_all(&results, &config.settings, out)?;
+    let progress = crate::progress::Progress::new(quiet);
+    let results = pipeline::compute_with(&config, &progress)?;
+    let report = crate::progress::step(&progress, "writing outputs", || {
+        write_all(&results, &config.settings, out)
+    })?;
     let alarms = pipeline::alarms(&results, &config.settings);
     Ok(RunOutcome {
         config,

@@ -52,6 +52,7 @@ pub fn write_all(r: &Results, settings: &Settings, out: &Path) -> Result<RunRepo
         cross_validation.clone(),
         tables::spatial_model(&r.spatial),
         tables::qc_log(data, &r.qc),
+        tables::qc_summary(data, &r.qc),
         tables::network_findings(&r.qc),
         tables::rejected_rows(&data.rejected),
         tables::diagnostics(&r.diagnostics()),

@@ -5,7 +5,11 @@
 //! the counts used and the caution that every figure is an estimate with a stated
 //! uncertainty. Each table sheet has a frozen header row that names the unit of every column,
 //! an autofilter, fitted column widths and number formats taken from each column's
-//! [`Format`] as follows.
+//! [`Format`] as follows. Numbers are stored at the precision the CSV file prints them
+//! (`Decimal(d)`: d decimals; `Share`: 4 decimals; `Integer`: whole), so sums over the
+//! workbook and over the CSV agree. Every sheet prints landscape, one page wide, and a table
+//! sheet repeats its header row on every printed page; the cover stores its counts as
+//! numbers.
 //!
 //! | column format | Excel number format |
 //! |---|---|
@@ -60,8 +64,9 @@ const WIDTH_MAX: f64 = 60.0;
 pub struct CoverSheet {
     /// Heading, e.g. "Traffic statistics 2025, County road network".
     pub title: String,
-    /// Label and text pairs: study year, inputs, methods, counts used, tool version ...
-    pub lines: Vec<(String, String)>,
+    /// Label and value pairs: study year, inputs, methods, counts used, tool version ...
+    /// Numbers ([`Cell::Int`], [`Cell::Num`]) are stored as numbers, text as text.
+    pub lines: Vec<(String, Cell)>,
     /// The caution shown last and in bold: figures are estimates with stated uncertainty;
     /// design follows local codes and a licensed engineer's judgement.
     pub caution: String,
@@ -158,9 +163,23 @@ fn write_cover(
 
     sheet.write_string_with_format(0, 0, clip(&cover.title), &title)?;
     let mut row: u32 = 2;
-    for (l, t) in &cover.lines {
+    let number = XlFormat::new()
+        .set_align(FormatAlign::Left)
+        .set_align(FormatAlign::Top);
+    for (l, value) in &cover.lines {
         sheet.write_string_with_format(row, 0, clip(l), &label)?;
-        sheet.write_string_with_format(row, 1, clip(t), &text)?;
+        match value {
+            Cell::Int(v) => {
+                sheet.write_number_with_format(row, 1, *v as f64, &number)?;
+            }
+            Cell::Num(v) if v.is_finite() => {
+                sheet.write_number_with_format(row, 1, *v, &number)?;
+            }
+            Cell::Text(t) => {
+                sheet.write_string_with_format(row, 1, clip(t), &text)?;
+            }
+            _ => {}
+        }
         row += 1;
     }
     row += 1;
@@ -181,6 +200,19 @@ fn write_cover(
     row += 1;
     sheet.write_string_with_format(row, 0, "Caution", &label)?;
     sheet.write_string_with_format(row, 1, clip(&cover.caution), &caution)?;
+    page_setup(sheet, false)?;
+    Ok(())
+}
+
+/// Print setup of a sheet: landscape, one page wide (as many pages tall as needed), and on
+/// a table sheet its header row repeated at the top of every printed page.
+fn page_setup(sheet: &mut Worksheet, header_row: bool) -> Result<(), XlsxError> {
+    sheet.set_landscape();
+    sheet.set_print_fit_to_pages(1, 0);
+    sheet.set_print_center_horizontally(true);
+    if header_row {
+        sheet.set_repeat_rows(0, 0)?;
+    }
     Ok(())
 }
 
@@ -219,7 +251,8 @@ fn write_table(sheet: &mut Worksheet, table: &Table, name: &str) -> Result<(), X
                     None
                 }
                 Cell::Int(v) => Some(*v as f64),
-                Cell::Num(v) if v.is_finite() => Some(*v),
+                // The CSV's precision: the number its text shows, so sums agree.
+                Cell::Num(v) if v.is_finite() => cell_text(cell, col.format).parse().ok(),
                 Cell::Num(_) => None,
             };
             if let Some(v) = number {
@@ -238,6 +271,7 @@ fn write_table(sheet: &mut Worksheet, table: &Table, name: &str) -> Result<(), X
         let last_col = table.columns.len() as u16 - 1;
         sheet.set_freeze_panes(1, 0)?;
         sheet.autofilter(0, 0, rows.len() as u32, last_col)?;
+        page_setup(sheet, true)?;
     }
     Ok(())
 }
@@ -339,7 +373,7 @@ mod tests {
         CoverSheet {
             title: "Traffic statistics 2025".into(),
             lines: vec![
-                ("Study year".into(), "2025".into()),
+                ("Study year".into(), Cell::Int(2025)),
                 ("Counts used".into(), "12 continuous, 40 short".into()),
             ],
             caution: "Figures are estimates with stated uncertainty.".into(),
@@ -389,6 +423,87 @@ mod tests {
             Cell::Int(12),
         ]);
         t
+    }
+
+    /// The text of zip entry `name` of an `.xlsx` archive, found through the central directory
+    /// and inflated (entries are stored or deflated).
+    pub(crate) fn zip_entry(zip: &[u8], name: &str) -> Option<String> {
+        use std::io::Read;
+        let u16at = |i: usize| u16::from_le_bytes([zip[i], zip[i + 1]]) as usize;
+        let u32at = |i: usize| u32::from_le_bytes(zip[i..i + 4].try_into().unwrap()) as usize;
+        let eocd = (0..zip.len() - 21)
+            .rev()
+            .find(|&i| zip[i..i + 4] == [0x50, 0x4b, 0x05, 0x06])?;
+        let (entries, mut at) = (u16at(eocd + 10), u32at(eocd + 16));
+        for _ in 0..entries {
+            let (method, csize) = (u16at(at + 10), u32at(at + 20));
+            let (nlen, xlen, clen) = (u16at(at + 28), u16at(at + 30), u16at(at + 32));
+            let local = u32at(at + 42);
+            let entry = std::str::from_utf8(&zip[at + 46..at + 46 + nlen]).ok()?;
+            if entry == name {
+                let start = local + 30 + u16at(local + 26) + u16at(local + 28);
+                let data = &zip[start..start + csize];
+                let mut out = String::new();
+                match method {
+                    0 => out.push_str(std::str::from_utf8(data).ok()?),
+                    8 => {
+                        flate2::read::DeflateDecoder::new(data)
+                            .read_to_string(&mut out)
+                            .ok()?;
+                    }
+                    _ => return None,
+                }
+                return Some(out);
+            }
+            at += 46 + nlen + xlen + clen;
+        }
+        None
+    }
+
+    /// Page setup as Excel and LibreOffice read it (ECMA-376 Part 1, 18.3.1.63 pageSetup,
+    /// 18.3.1.65 sheetPr/pageSetUpPr fitToPage, 18.2.5 definedName _xlnm.Print_Titles):
+    /// landscape, fit to one page wide, header row repeated on every table sheet.
+    #[test]
+    fn sheets_print_landscape_one_page_wide_with_the_header_repeated() {
+        let (a, b) = (segments(), stations());
+        let bytes = render_workbook(&cover(), &[&a, &b]).unwrap();
+        for n in 1..=3 {
+            let xml = zip_entry(&bytes, &format!("xl/worksheets/sheet{n}.xml")).unwrap();
+            assert!(xml.contains("<pageSetUpPr fitToPage=\"1\"/>"), "sheet{n}");
+            assert!(xml.contains("orientation=\"landscape\""), "sheet{n}");
+            assert!(
+                xml.contains("fitToHeight=\"0\""),
+                "sheet{n}: as many pages tall as needed"
+            );
+        }
+        let wb = zip_entry(&bytes, "xl/workbook.xml").unwrap();
+        for sheet in ["segment_statistics", "stations_with_a_very_long_table"] {
+            assert!(
+                wb.contains(&format!(
+                    "_xlnm.Print_Titles\" localSheetId=\"{}\"",
+                    if sheet == "segment_statistics" { 1 } else { 2 }
+                )),
+                "{wb}"
+            );
+            assert!(
+                wb.contains(&format!("{sheet}!$1:$1")),
+                "{sheet} repeats row 1: {wb}"
+            );
+        }
+    }
+
+    /// The cover stores numbers as numbers; the table sheets store a number at the CSV's
+    /// precision (the text the CSV prints, parsed), so workbook and CSV sums agree.
+    #[test]
+    fn cover_numbers_are_numbers_and_values_have_the_csv_precision() {
+        let a = segments();
+        let mut wb = read(render_workbook(&cover(), &[&a]).unwrap());
+        let about = wb.worksheet_range("about").unwrap();
+        assert_eq!(about.get_value((2, 1)), Some(&Data::Float(2025.0)));
+        let seg = wb.worksheet_range("segment_statistics").unwrap();
+        assert_eq!(seg.get_value((1, 1)), Some(&Data::Float(12345.0)));
+        assert_eq!(seg.get_value((1, 2)), Some(&Data::Float(0.0834)));
+        assert_eq!(seg.get_value((1, 3)), Some(&Data::Float(0.099)));
     }
 
     fn read(bytes: Vec<u8>) -> Xlsx<Cursor<Vec<u8>>> {

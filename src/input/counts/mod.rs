@@ -161,19 +161,24 @@ pub(crate) fn read_counts_split(
     for (path, name) in &list {
         let len = std::fs::metadata(path).map_or(0, |m| m.len());
         let parallel = split.workers > 1 && len >= split.min_bytes && !name.ends_with(".gz");
+        let start = bar.position();
         let done = if parallel {
-            read_parallel(path, name, len, ctx, split)?
+            read_parallel(path, name, len, ctx, split, &bar)?
         } else {
             None
         };
         let summary = match done {
             Some(file) if absorb_check(&store, &file.store, &file.fold_keys) => {
-                bar.inc(len);
+                bar.set_position(start + len);
                 absorb(&mut store, file.store);
                 rejects.extend(file.rejects);
                 file.summary
             }
-            _ => read_one(path, name, ctx, &mut store, rejects, &bar)?,
+            _ => {
+                // Read again from the start: the bar goes back to where this file began.
+                bar.set_position(start);
+                read_one(path, name, ctx, &mut store, rejects, &bar)?
+            }
         };
         files.push(summary);
     }
@@ -247,8 +252,9 @@ fn read_one(
     let mut last_bytes = 0u64;
     while let Some(next) = f.next_record(&mut rec)? {
         summary.rows += 1;
-        if summary.rows.is_multiple_of(65_536) {
-            let pos = f.lines.bytes;
+        if summary.rows.is_multiple_of(4_096) {
+            // Bytes read from disk (compressed for gzip), the unit of the bar's total.
+            let pos = f.file_bytes.load(std::sync::atomic::Ordering::Relaxed);
             bar.inc(pos.saturating_sub(last_bytes));
             last_bytes = pos;
         }

@@ -46,6 +46,7 @@ pub(super) fn read_parallel(
     len: u64,
     ctx: &Ctx,
     split: Split,
+    bar: &crate::progress::Bar,
 ) -> Result<Option<FileRead>, InputError> {
     let f = CsvFile::open(path, name)?;
     let cols = Columns::find(&f)?;
@@ -94,6 +95,8 @@ pub(super) fn read_parallel(
             line_offset += part.newlines;
             data_lines += part.newlines - part.blank;
         }
+        // The bar advances batch by batch, so a large file moves it while it is read.
+        bar.inc(batch.iter().map(|(a, b)| b - a).sum());
     }
     check_accounting(name, data_lines, &acc.summary, Some(acc.store.rows_used))?;
     Ok(Some(acc))

@@ -74,9 +74,16 @@ fn splits(root: &Path, range_bytes: u64) -> bool {
         stations: &st,
         zone: None,
     };
-    read_parallel(&path, "x", len, &ctx, parallel(range_bytes))
-        .unwrap()
-        .is_some()
+    read_parallel(
+        &path,
+        "x",
+        len,
+        &ctx,
+        parallel(range_bytes),
+        &crate::progress::Bar::hidden(),
+    )
+    .unwrap()
+    .is_some()
 }
 
 fn assert_same(root: &Path, ranges: &[u64]) {
@@ -176,4 +183,60 @@ fn quotes_and_crlf_split_and_agree_with_the_sequential_reader() {
         read(crlf.path(), SEQUENTIAL).0,
         read(study(|t| t).path(), SEQUENTIAL).0
     );
+}
+
+/// The counts bar of a read with `split`, recorded: (total, final position, peak, updates).
+fn counts_bar(root: &Path, split: Split) -> (u64, u64, u64, u64) {
+    let (mut rejects, mut files) = (Vec::new(), Vec::new());
+    let net = network::read_network(root, &mut rejects, &mut files).unwrap();
+    let st = stations::read_stations(root, &net, &mut rejects, &mut files).unwrap();
+    let ctx = Ctx {
+        net: &net,
+        stations: &st,
+        zone: None,
+    };
+    let progress = Progress::recording();
+    read_counts_split(root, &ctx, &mut rejects, &mut files, &progress, split).unwrap();
+    let r = progress.recorded();
+    assert_eq!(r.len(), 1, "{r:?}");
+    assert!(r[0].finished);
+    (r[0].total.unwrap(), r[0].position, r[0].peak, r[0].updates)
+}
+
+/// On gzip input the bar's total is the files' size on disk and its position counts bytes
+/// read from disk, so it ends at its total and never passes it (counting decompressed bytes
+/// against the compressed size ran to several times the total).
+#[test]
+fn the_progress_total_holds_on_gzip_input() {
+    let dir = tempfile::tempdir().unwrap();
+    generate_scaled(
+        &DemoParams::new(3, DemoSize::Small),
+        Scale::TINY,
+        dir.path(),
+    )
+    .unwrap();
+    let files = count_files(dir.path()).unwrap();
+    assert!(files.iter().any(|(_, n)| n.ends_with(".gz")));
+    let on_disk: u64 = files
+        .iter()
+        .map(|(p, _)| std::fs::metadata(p).unwrap().len())
+        .sum();
+    let (total, pos, peak, updates) = counts_bar(dir.path(), SEQUENTIAL);
+    assert_eq!(total, on_disk);
+    assert_eq!(pos, total);
+    assert!(peak <= total, "peak {peak} of {total}");
+    assert!(
+        updates > 2,
+        "the bar moves while reading ({updates} updates)"
+    );
+}
+
+/// A plain file read in byte ranges moves the bar batch by batch, ending at its total.
+#[test]
+fn the_progress_bar_advances_while_ranges_are_read() {
+    let dir = study(|t| t);
+    let (total, pos, peak, updates) = counts_bar(dir.path(), parallel(4099));
+    assert_eq!(pos, total);
+    assert!(peak <= total);
+    assert!(updates > 5, "{updates} updates");
 }

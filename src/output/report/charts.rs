@@ -111,7 +111,16 @@ pub(super) fn metric_charts(table: &Table) -> Vec<MetricChart> {
             None
         };
         charts.push(MetricChart {
-            title: format!("{} by {}", col.name, category_names(table, &cats)),
+            title: {
+                let t = format!(
+                    "{} by {}",
+                    plain_name(&col.name, if share { "%" } else { col.unit }),
+                    category_names(table, &cats)
+                );
+                let mut c = t.chars();
+                c.next()
+                    .map_or(t.clone(), |f| f.to_uppercase().chain(c).collect())
+            },
             bars,
             unit,
             reference,
@@ -125,7 +134,14 @@ fn category_names(table: &Table, cats: &[usize]) -> String {
         "row".to_string()
     } else {
         cats.iter()
-            .map(|&ci| table.columns[ci].name.as_str())
+            .map(|&ci| {
+                let c = &table.columns[ci];
+                plain_name(&c.name, "")
+                    .split(" (")
+                    .next()
+                    .unwrap_or_default()
+                    .to_string()
+            })
             .collect::<Vec<_>>()
             .join(" and ")
     }
@@ -136,7 +152,8 @@ fn category_names(table: &Table, cats: &[usize]) -> String {
 /// over rules instead would count a station's accepted days once per rule).
 pub(super) fn qc_chart(table: &Table) -> Option<(String, Vec<QcRow>)> {
     let rows = qc_rows(table)?;
-    let title = "Station-days accepted, flagged and rejected".to_string();
+    let title =
+        "Direction-days accepted without a flag, accepted with a flag, and rejected".to_string();
     match table.column("rule") {
         Some(rule) if rows.len() > svg::BARS_MAX => {
             let mut by_rule: std::collections::BTreeMap<String, [f64; 3]> = Default::default();
@@ -162,14 +179,23 @@ pub(super) fn qc_chart(table: &Table) -> Option<(String, Vec<QcRow>)> {
     }
 }
 
-/// Rows of a QC summary as (label, [accepted, flagged, rejected]) when the table has those
-/// three columns (names starting with the words); `None` otherwise.
+/// The three stacked parts of one QC bar, `[accepted without a flag, flagged, rejected]`, from
+/// a summary row's `accepted` (flagged days included: a flag keeps the day), `flagged` and
+/// `rejected`. The parts sum to `accepted + rejected`, the station's direction-days; stacking
+/// `accepted` and `flagged` as they stand would count every flagged day twice.
+pub(super) fn qc_parts(accepted: f64, flagged: f64, rejected: f64) -> [f64; 3] {
+    [(accepted - flagged).max(0.0), flagged, rejected]
+}
+
+/// Rows of a QC summary as (label, [accepted without a flag, flagged, rejected]) when the
+/// table has the columns `accepted` (flags included), `flagged` and `rejected`; `None`
+/// otherwise.
 pub(super) fn qc_rows(table: &Table) -> Option<Vec<QcRow>> {
     let find = |word: &str| {
         table
             .columns
             .iter()
-            .position(|c| c.format != Format::Text && c.name.to_ascii_lowercase().starts_with(word))
+            .position(|c| c.format != Format::Text && c.name.to_ascii_lowercase() == word)
     };
     let idx = [find("accepted")?, find("flagged")?, find("rejected")?];
     let labels: Vec<usize> = (0..table.columns.len())
@@ -193,8 +219,61 @@ pub(super) fn qc_rows(table: &Table) -> Option<Vec<QcRow>> {
                     })
                     .collect::<Vec<_>>()
                     .join(" · ");
-                (label, idx.map(|ci| num(&row[ci])))
+                let [a, f, r] = idx.map(|ci| num(&row[ci]));
+                (label, qc_parts(a, f, r))
             })
             .collect(),
     )
+}
+
+/// A column name in plain words with its unit, for chart titles: `median_ape_pct` ->
+/// "median absolute percentage error (%)". Names not in the list lose their underscores.
+pub(super) fn plain_name(name: &str, unit: &str) -> String {
+    const WORDS: &[(&str, &str, &str)] = &[
+        ("median_ape_pct", "median absolute percentage error", "%"),
+        (
+            "p90_ape_pct",
+            "90th-percentile absolute percentage error",
+            "%",
+        ),
+        ("mean_ape_pct", "mean absolute percentage error", "%"),
+        ("ape_pct", "absolute percentage error", "%"),
+        (
+            "coverage95",
+            "share of true values inside the 95 % interval",
+            "%",
+        ),
+        ("coverage", "share of true values inside the interval", "%"),
+        ("bias_pct", "mean signed error", "%"),
+        ("rmse_log", "root-mean-square error of ln AADT", ""),
+        (
+            "k_median_ape_pct",
+            "median absolute percentage error of K from the count's own peak hours",
+            "%",
+        ),
+        (
+            "k_group_median_ape_pct",
+            "median absolute percentage error of K from the group's mean K30",
+            "%",
+        ),
+        ("hours", "count length", "h"),
+        ("estimator", "estimator", ""),
+        ("count_hours", "count length", "h"),
+        ("class_group", "class group", ""),
+        ("functional_class", "functional class", ""),
+    ];
+    if let Some((_, words, u)) = WORDS.iter().find(|(n, _, _)| *n == name) {
+        return if u.is_empty() {
+            (*words).to_string()
+        } else {
+            format!("{words} ({u})")
+        };
+    }
+    let words = name.trim_end_matches("_pct").replace('_', " ");
+    let u = if name.ends_with("_pct") { "%" } else { unit };
+    if u.is_empty() {
+        words
+    } else {
+        format!("{words} ({u})")
+    }
 }

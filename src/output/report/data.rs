@@ -56,8 +56,8 @@ pub struct ReportData {
     pub calibration: Option<Table>,
     /// Cross-validation table of the spatial estimates.
     pub cross_validation: Option<Table>,
-    /// Quality-control summary: station-days accepted, flagged and rejected per station and
-    /// rule.
+    /// Quality-control summary (`qc_summary.csv`): direction-days, accepted (flags included),
+    /// flagged and rejected per station.
     pub qc_summary: Option<Table>,
     /// Network totals (vehicle-km, segments by basis ...).
     pub network_totals: Option<Table>,
@@ -80,5 +80,6 @@ pub struct Bar {
     pub value: f64,
 }
 
-/// One row of the QC chart: a label and station-days `[accepted, flagged, rejected]`.
+/// One row of the QC chart: a label and direction-days `[accepted without a flag, flagged,
+/// rejected]`, which sum to the row's direction-days.
 pub type QcRow = (String, [f64; 3]);

@@ -4,8 +4,9 @@
 //! coloured by AADT whose line opacity (and a second panel) shows the width of each 95 %
 //! interval, monthly and weekday factor charts per factor group, the short-count calibration
 //! and cross-validation results as bar charts and tables, the quality-control summary
-//! (station-days accepted, flagged and rejected per station and rule), further tables, and the
-//! method and caution text.
+//! (direction-days accepted without a flag, flagged and rejected per station, as in
+//! `qc_summary.csv`), further tables, and the method and caution text. Chart titles stand above
+//! their charts, in plain words with units.
 //!
 //! # Self-contained and safe
 //! The file needs nothing but a browser: CSS is inline, charts are inline SVG
@@ -279,10 +280,13 @@ mod tests {
         assert!(html.contains("AADT 12,000 veh/day, 95 % interval 10,000 to 14,000 veh/day"));
         assert!(html.contains("stroke-dasharray"));
         // Calibration charts by name, with the nominal coverage line.
-        assert!(html.contains("median_ape_pct by hours and class_group"));
+        assert!(
+            html.contains("Median absolute percentage error (%) by count length and class group")
+        );
+        assert!(!html.contains("median_ape_pct by"));
         assert!(html.contains("nominal 95 %"));
         // QC stacked bars.
-        assert!(html.contains("station-days rejected"));
+        assert!(html.contains("direction-days rejected"));
         // Truncated extra table with its note.
         assert!(html.contains(&format!(
             "first {TABLE_ROWS_MAX} of {} rows",
@@ -337,8 +341,31 @@ mod tests {
         assert!(title.ends_with("per rule, all stations"));
         assert_eq!(rows.len(), 2);
         assert_eq!(rows[0].0, "spike");
-        approx::assert_relative_eq!(rows[1].1[0], 15_000.0);
+        // 50 stations x (300 accepted, 1 of them flagged): 14,950 without a flag.
+        approx::assert_relative_eq!(rows[1].1[0], 14_950.0);
         approx::assert_relative_eq!(rows[1].1[2], 100.0);
+    }
+
+    /// A station with 730 direction-days (two directions, 365 days), 26 of them flagged and
+    /// 4 rejected: the bar's parts must add up to 730, not 756 (flagged counted twice).
+    #[test]
+    fn qc_bars_add_up_to_the_direction_days() {
+        let mut qc = data().qc_summary.unwrap();
+        qc.rows.clear();
+        qc.push(vec![
+            "st1".into(),
+            "all".into(),
+            Cell::Int(726),
+            Cell::Int(26),
+            Cell::Int(4),
+        ]);
+        let rows = qc_rows(&qc).unwrap();
+        let parts = rows[0].1;
+        approx::assert_relative_eq!(parts.iter().sum::<f64>(), 730.0);
+        approx::assert_relative_eq!(parts[0], 700.0);
+        approx::assert_relative_eq!(parts[1], 26.0);
+        let html = svg::qc_bars("t", &rows).into_string();
+        assert!(html.contains("700 / 26 / 4"));
     }
 
     #[test]

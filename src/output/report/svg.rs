@@ -9,10 +9,11 @@
 //! The map projects lon/lat with an equirectangular projection about the network's mean
 //! latitude (x = lon * cos(mean lat), y = lat), which is faithful enough over a region a few
 //! hundred km across. Colour and line width give AADT in bins on a logarithmic 1-2-5 scale.
-//! Line opacity shows how sure the figure is: opacity = 1 - (half-width of the 95 % interval /
-//! AADT), kept between 0.25 and 1, so a faint line is an uncertain estimate. A second, smaller
-//! panel colours the same lines by the relative interval width (hi - lo) / AADT. Segments
-//! estimated without a count on them are dashed.
+//! One interval measure throughout: the relative width of the 95 % interval, (hi - lo) / AADT,
+//! in five classes (under 10 %, 10-25 %, 25-50 %, 50-100 %, 100 % or more). On the main map it
+//! sets the line opacity (1 down to 0.25, so a faint line is an uncertain estimate); a second,
+//! smaller panel colours the same lines by it. Segments estimated without a count on them are
+//! dashed.
 
 use maud::{html, Markup};
 
@@ -79,23 +80,36 @@ fn c(v: f64) -> String {
     format!("{v:.2}")
 }
 
-/// Relative half-width of a segment's 95 % interval, `None` when it cannot be computed.
+/// Relative width of a segment's 95 % interval, (hi - lo) / AADT, `None` when it cannot be
+/// computed. Both map panels use this one measure (the full width, not the half-width).
 fn relative_width(s: &MapSegment) -> Option<f64> {
     let w = (s.hi95 - s.lo95) / s.aadt;
     (s.aadt > 0.0 && w.is_finite() && w >= 0.0).then_some(w)
 }
 
-/// Line opacity: 1 - half-width / AADT, clipped to [`OPACITY_MIN`, 1].
+/// Line opacity per relative-width bin ([`WIDTH_EDGES`]): narrow intervals are solid, the
+/// widest class is drawn at [`OPACITY_MIN`].
+const WIDTH_OPACITY: [f64; 5] = [1.0, 0.8, 0.6, 0.42, OPACITY_MIN];
+
+/// Index of the relative-width bin of `w` ([`WIDTH_EDGES`] are upper edges, exclusive).
+fn width_bin(w: f64) -> usize {
+    WIDTH_EDGES.iter().take_while(|&&e| w >= e).count()
+}
+
+/// Line opacity from the relative width of the 95 % interval, (hi - lo) / AADT, in the same
+/// bins as the interval-width panel; [`OPACITY_MIN`] when the width cannot be computed.
 ///
 /// ```
 /// use roadtally::output::report::svg::interval_opacity;
-/// // 1,000 veh/day with a 95 % interval of 800 to 1,200: half-width 20 % -> opacity 0.8.
-/// assert!((interval_opacity(1000.0, 800.0, 1200.0) - 0.8).abs() < 1e-12);
+/// // 1,000 veh/day with a 95 % interval of 950 to 1,050: width 10 %, second bin.
+/// assert!((interval_opacity(1000.0, 950.0, 1050.0) - 0.8).abs() < 1e-12);
+/// // 800 to 1,200: width 40 %, third bin (25 to 50 %).
+/// assert!((interval_opacity(1000.0, 800.0, 1200.0) - 0.6).abs() < 1e-12);
 /// ```
 pub fn interval_opacity(aadt: f64, lo95: f64, hi95: f64) -> f64 {
-    let half = (hi95 - lo95) / 2.0 / aadt;
-    if aadt > 0.0 && half.is_finite() {
-        (1.0 - half).clamp(OPACITY_MIN, 1.0)
+    let w = (hi95 - lo95) / aadt;
+    if aadt > 0.0 && w.is_finite() && w >= 0.0 {
+        WIDTH_OPACITY[width_bin(w)]
     } else {
         OPACITY_MIN
     }
@@ -171,7 +185,7 @@ fn bin_width(i: usize) -> f64 {
 fn width_colour(w: Option<f64>) -> &'static str {
     match w {
         None => NO_DATA,
-        Some(w) => WIDTH_COLOURS[WIDTH_EDGES.iter().filter(|&&e| w >= e).count()],
+        Some(w) => WIDTH_COLOURS[width_bin(w)],
     }
 }
 
@@ -327,8 +341,9 @@ pub fn network_map(segs: &[MapSegment]) -> Markup {
                 (main_svg)
                 figcaption {
                     "AADT (veh/day, both directions) by colour and line width. "
-                    "Opacity = 1 − (half-width of the 95 % interval ÷ AADT), between 0.25 and 1: "
-                    "a faint line is an uncertain estimate. Dashed: estimated without a count on the segment."
+                    "Opacity shows the width of the 95 % interval, (hi − lo) ÷ AADT, in the classes "
+                    "of the panel beside: a faint line is an uncertain estimate. "
+                    "Dashed: estimated without a count on the segment."
                 }
                 ul.legend {
                     @for i in 0..k {
@@ -338,17 +353,15 @@ pub fn network_map(segs: &[MapSegment]) -> Markup {
                     li { (swatch(NO_DATA, 1.0, 1.0, false)) "no figure" }
                 }
                 ul.legend {
-                    @for (half, op) in [(0.0, 1.0), (0.375, 0.625), (0.75, OPACITY_MIN)] {
-                        li { (swatch(darkest, 4.0, op, false))
-                            "interval ± " (format!("{:.0}", half * 100.0)) " % of AADT"
-                            @if op <= OPACITY_MIN { " or wider" } }
+                    @for (i, op) in WIDTH_OPACITY.iter().enumerate() {
+                        li { (swatch(darkest, 4.0, *op, false)) "interval width " (width_bin_label(i)) }
                     }
                     li { (swatch(darkest, 3.0, 1.0, true)) "estimated (no count)" }
                 }
             }
             figure.map-side {
                 (side_svg)
-                figcaption { "Width of the 95 % interval, (hi − lo) ÷ AADT, %." }
+                figcaption { "Width of the 95 % interval, (hi − lo) ÷ AADT, in % of AADT." }
                 ul.legend {
                     @for (i, colour) in WIDTH_COLOURS.iter().enumerate() {
                         li { (swatch(colour, 3.0, 1.0, false)) (width_bin_label(i)) }
@@ -508,6 +521,7 @@ pub fn bar_chart(title: &str, bars: &[Bar], unit: &str, reference: Option<(f64, 
     let x = |v: f64| left + (v - bot_v) / (top_v - bot_v) * (w - left - right);
     html! {
         figure.bars {
+            figcaption { (title) (capped_note(all)) }
             svg.chart viewBox=(format!("0 0 {w} {}", c(h))) role="img" aria-label=(title) {
                 @for (i, b) in bars.iter().enumerate() {
                     @let yt = top + row * i as f64;
@@ -532,7 +546,6 @@ pub fn bar_chart(title: &str, bars: &[Bar], unit: &str, reference: Option<(f64, 
                     text.tick x=(c(x(rv) + 3.0)) y=(c(base - 3.0)) { (rl) }
                 }
             }
-            figcaption { (title) (capped_note(all)) }
         }
     }
 }
@@ -540,7 +553,11 @@ pub fn bar_chart(title: &str, bars: &[Bar], unit: &str, reference: Option<(f64, 
 /// Stacked horizontal bars of station-days accepted, flagged and rejected per row.
 pub fn qc_bars(title: &str, rows: &[QcRow]) -> Markup {
     const COLOURS: [&str; 3] = ["#9ecae1", "#fdae6b", "#de2d26"];
-    const NAMES: [&str; 3] = ["accepted", "flagged", "rejected"];
+    const NAMES: [&str; 3] = [
+        "accepted without a flag",
+        "accepted with a flag",
+        "rejected",
+    ];
     let all = rows.len();
     let rows: Vec<&QcRow> = rows.iter().take(BARS_MAX).collect();
     if rows.is_empty() {
@@ -553,6 +570,13 @@ pub fn qc_bars(title: &str, rows: &[QcRow]) -> Markup {
     let x = |v: f64| left + v / vmax * (w - left - right);
     html! {
         figure.bars {
+            figcaption {
+                (title) " "
+                @for k in 0..3 {
+                    span.key { (swatch(COLOURS[k], 8.0, 1.0, false)) (NAMES[k]) }
+                }
+                " (numbers: accepted without a flag / with a flag / rejected, direction-days)" (capped_note(all))
+            }
             svg.chart viewBox=(format!("0 0 {w} {}", c(h))) role="img" aria-label=(title) {
                 @for (i, (label, v)) in rows.iter().enumerate() {
                     @let yt = top + row * i as f64;
@@ -562,7 +586,7 @@ pub fn qc_bars(title: &str, rows: &[QcRow]) -> Markup {
                         @if v[k].is_finite() && v[k] > 0.0 {
                             rect x=(c(x(start))) y=(c(yt + 3.0)) width=(c(x(start + v[k]) - x(start)))
                                 height=(c(row - 6.0)) fill=(COLOURS[k]) {
-                                title { (label) ": " (thousands(v[k])) " station-days " (NAMES[k]) }
+                                title { (label) ": " (thousands(v[k])) " direction-days " (NAMES[k]) }
                             }
                         }
                     }
@@ -575,14 +599,7 @@ pub fn qc_bars(title: &str, rows: &[QcRow]) -> Markup {
                 @for t in [0.0, vmax / 2.0, vmax] {
                     text.tick x=(c(x(t))) y=(c(base + 12.0)) text-anchor="middle" { (thousands(t)) }
                 }
-                text.tick x=(c(w - right)) y=(c(base + 23.0)) text-anchor="end" { "station-days" }
-            }
-            figcaption {
-                (title) " "
-                @for k in 0..3 {
-                    span.key { (swatch(COLOURS[k], 8.0, 1.0, false)) (NAMES[k]) }
-                }
-                " (labels: accepted / flagged / rejected)" (capped_note(all))
+                text.tick x=(c(w - right)) y=(c(base + 23.0)) text-anchor="end" { "direction-days" }
             }
         }
     }
@@ -677,9 +694,29 @@ mod tests {
     #[test]
     fn opacity_follows_the_interval() {
         assert_relative_eq!(interval_opacity(1000.0, 1000.0, 1000.0), 1.0);
-        assert_relative_eq!(interval_opacity(1000.0, 800.0, 1200.0), 0.8);
+        // Width 40 % lies in the 25-50 % class, the same class the width panel colours.
+        assert_relative_eq!(interval_opacity(1000.0, 800.0, 1200.0), 0.6);
+        assert_eq!(width_bin(0.4), 2);
+        assert_eq!(width_colour(Some(0.4)), WIDTH_COLOURS[2]);
         assert_relative_eq!(interval_opacity(1000.0, 0.0, 5000.0), OPACITY_MIN);
         assert_relative_eq!(interval_opacity(0.0, 0.0, 1.0), OPACITY_MIN);
+    }
+
+    #[test]
+    fn the_legends_name_one_interval_measure() {
+        let seg = MapSegment {
+            from: (10.0, 50.0),
+            to: (10.01, 50.01),
+            aadt: 1000.0,
+            lo95: 900.0,
+            hi95: 1100.0,
+            basis: "continuous".into(),
+            label: "s".into(),
+        };
+        let html = network_map(&[seg]).into_string();
+        assert!(!html.contains("±"), "no half-width legend");
+        assert!(html.contains("interval width under 10 %"));
+        assert!(html.contains("interval width 100 % or more"));
     }
 
     #[test]

@@ -12,7 +12,7 @@ use super::table::{Cell, Column, Format};
 
 pub use expansion::{calibration_table, short_counts};
 pub use factors::{factor_groups, factors_table, group_assignment};
-pub use quality::{diagnostics, network_findings, qc_log, rejected_rows};
+pub use quality::{diagnostics, network_findings, qc_log, qc_summary, rejected_rows};
 pub use segments::segment_statistics;
 pub use spatial::{cross_validation, spatial_model};
 pub use stations::{hourly_distribution, ranked_hours, station_statistics};

@@ -131,3 +131,53 @@ pub fn diagnostics(stages: &[&crate::model::StageDiagnostics]) -> Table {
     })
     .build(&records)
 }
+
+/// `qc_summary.csv`: per station, its direction-days and how quality control treated them.
+/// `accepted` includes the `flagged` days (a flag keeps the day); `accepted + rejected =
+/// direction_days`, so a chart stacks `accepted - flagged`, `flagged` and `rejected`.
+pub fn qc_summary(data: &StudyData, qc: &QcOutput) -> Table {
+    use std::collections::{BTreeMap, BTreeSet};
+    let mut t = Table::new(
+        "qc_summary",
+        "Direction-days per station: accepted (flags included), of which flagged, and rejected",
+        vec![
+            col("station_id", "", Format::Text),
+            col("direction_days", "direction-days", Format::Integer),
+            col("accepted", "direction-days", Format::Integer),
+            col("flagged", "direction-days", Format::Integer),
+            col("rejected", "direction-days", Format::Integer),
+        ],
+    );
+    let mut flagged: BTreeMap<usize, BTreeSet<_>> = BTreeMap::new();
+    for f in &qc.findings {
+        if !qc.is_rejected(f.station, f.date, f.direction) {
+            flagged
+                .entry(f.station)
+                .or_default()
+                .insert((f.date, f.direction));
+        }
+    }
+    for (si, days) in data.counts.days.iter().enumerate() {
+        let (mut all, mut rej) = (0usize, 0usize);
+        for (date, day) in days {
+            for d in crate::model::Direction::ALL {
+                if day.dir(d).is_some() {
+                    all += 1;
+                    rej += usize::from(qc.is_rejected(si, *date, d));
+                }
+            }
+        }
+        if all == 0 {
+            continue;
+        }
+        let fl = flagged.get(&si).map_or(0, BTreeSet::len);
+        t.push(vec![
+            Cell::from(data.stations.stations[si].id.as_str()),
+            Cell::from(all),
+            Cell::from(all - rej),
+            Cell::from(fl),
+            Cell::from(rej),
+        ]);
+    }
+    t
+}

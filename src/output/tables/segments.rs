@@ -131,6 +131,9 @@ pub fn segment_statistics(data: &StudyData, rows: &[SegmentRow], spatial: &Spati
         .col("area", "", Format::Text, |x| {
             Cell::from(x.seg.area.as_str())
         })
+        .col("route", "", Format::Text, |x| {
+            x.seg.route.as_deref().map_or(Cell::Empty, Cell::from)
+        })
         .col("lanes", "", Format::Integer, |x| Cell::from(x.seg.lanes))
         .col("length_km", "km", Format::Decimal(3), |x| {
             Cell::from(x.seg.length_km)
