@@ -57,7 +57,7 @@ def main(study, out):
     try:
         cv = rows(f"{out}/cross_validation.csv")
         for r in cv:
-            if r["class_group"] in ("all", "reweighted"):
+            if r["class_group"] in ("all", "reweighted_to_uncounted"):
                 print("  cv", r["estimator"], r["class_group"], r["median_ape_pct"], r["coverage95"])
     except FileNotFoundError:
         pass

@@ -191,7 +191,7 @@ impl Scale {
                 gzip_continuous: true,
             },
             DemoSize::Large => Scale {
-                rural_grid: 26,
+                rural_grid: 27,
                 rural_spacing_km: 3.4,
                 towns: &[16, 15, 12],
                 continuous: 60,

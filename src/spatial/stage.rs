@@ -64,6 +64,9 @@ pub struct SpatialParams {
     pub full_model_min_counts: usize,
     /// Origins sampled for the betweenness terms ([`super::betweenness`]). Default 256.
     pub betweenness_origins: usize,
+    /// Use published AADT of earlier years (`history.csv`) as observations of segments
+    /// without a count ([`super::history`]). Default true.
+    pub use_history: bool,
     /// Krige each class group's residuals from its own group only (freeways, arterials,
     /// collectors and locals). Default true.
     pub within_class_group: bool,
@@ -82,6 +85,7 @@ impl Default for SpatialParams {
             full_model_min_counts: 60,
             betweenness_origins: 256,
             within_class_group: true,
+            use_history: true,
         }
     }
 }
@@ -652,7 +656,12 @@ pub fn run(input: &SpatialInput, params: &SpatialParams) -> Result<SpatialOutput
     for o in obs {
         counted[o.segment] = true;
     }
-    let (hist_var, hist_obs) = history_observations(obs, input.history, &counted);
+    let history = if params.use_history {
+        input.history
+    } else {
+        &[]
+    };
+    let (hist_var, hist_obs) = history_observations(obs, history, &counted);
     out.history_variance = Some(hist_var);
     out.history_used = hist_obs.iter().filter(|h| !counted[h.segment]).count();
     // Every observation: this year's counts, then the history of segments without one.

@@ -70,7 +70,51 @@ pub fn cross_validation(data: &StudyData, sp: &SpatialOutput) -> Table {
             ]);
         }
     }
+    // The same folds weighted to the uncounted segments' mix of class group x history: the
+    // figure that predicts the accuracy of what is published for them.
+    for (name, f) in estimators {
+        let mut pts: Vec<(f64, f64, bool)> = Vec::new();
+        for p in &sp.cv {
+            let Some(cell) = p.cell(&data.network) else {
+                continue;
+            };
+            let Some(c) = sp.interval_scales.iter().find(|c| c.cell == cell) else {
+                continue;
+            };
+            if c.folds > 0 {
+                let w = c.uncounted as f64 / c.folds as f64;
+                pts.push((ape(f(p).value, p.observed), w, f(p).covers(p.observed)));
+            }
+        }
+        let total: f64 = pts.iter().map(|p| p.1).sum();
+        if total <= 0.0 {
+            continue;
+        }
+        let cov = pts.iter().filter(|p| p.2).map(|p| p.1).sum::<f64>() / total;
+        t.push(vec![
+            Cell::from(name),
+            Cell::from("reweighted_to_uncounted"),
+            Cell::from(pts.len()),
+            Cell::from(weighted_quantile(&mut pts, 0.5)),
+            Cell::from(weighted_quantile(&mut pts, 0.9)),
+            Cell::from(cov),
+        ]);
+    }
     t
+}
+
+/// Quantile `q` of `(value, weight, _)` by cumulative weight.
+fn weighted_quantile(pts: &mut [(f64, f64, bool)], q: f64) -> f64 {
+    pts.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let total: f64 = pts.iter().map(|p| p.1).sum();
+    let mut acc = 0.0;
+    for p in pts.iter() {
+        acc += p.1;
+        if acc >= q * total {
+            return p.0;
+        }
+    }
+    pts.last().map_or(f64::NAN, |p| p.0)
 }
 
 /// The spatial model: regression coefficients and covariance parameters.
