@@ -74,7 +74,7 @@ fn cell_log_sd(g: &crate::factors::GroupFactors, i: usize, j: usize, scale: f64)
 /// (see `expansion::calibration`): every counter of a group with at least three is left out
 /// in turn, its own monthly factor is predicted by the mean of the others', and
 /// `z = |ln(own / mean)| / (1.96 · s)` with `s` the modelled prediction log-sd of that month
-/// (the root mean square over weekdays of [`cell_log_sd`] at scale 1); the scale is the 95th
+/// (the root mean square over weekdays of `cell_log_sd` at scale 1); the scale is the 95th
 /// percentile of `z` over all trials, never below 1, so that `exp(±1.96 · scale · s)` covers
 /// 95 % of held-out counters' months. 1 when there are no trials.
 pub fn factor_spread_scale(factors: &FactorOutput) -> f64 {
