@@ -139,6 +139,12 @@ impl Settings {
                 "[spatial] betweenness_origins = 0: at least one origin is needed".to_string(),
             ));
         }
+        let p = self.toll.detectable_pct;
+        if !(p > 0.0 && p.is_finite()) {
+            return Err(bad(format!(
+                "[toll] detectable_pct = {p} is the billing discrepancy an audit must detect: it must be a finite percentage > 0"
+            )));
+        }
         let g = &self.segments;
         let r = g.share_borrow_reach_km;
         if !(r > 0.0 && r <= 1000.0) {
@@ -349,6 +355,7 @@ mod tests {
                 "[segments]\nshare_borrow_reach_km = 0.0",
                 "share_borrow_reach_km",
             ),
+            ("[toll]\ndetectable_pct = 0.0", "detectable_pct = 0"),
         ] {
             let e = Settings::parse(text).unwrap_err().to_string();
             assert!(e.contains(needle), "{text}: {e}");

@@ -309,14 +309,19 @@ pub fn compute_with(config: &Config, progress: &Progress) -> Result<Results, Pip
         &settings.segments,
     );
     let toll = data.toll.as_ref().map(|t| {
-        crate::toll::stage::run(&crate::toll::stage::TollInput {
-            network: &data.network,
-            stations: &data.stations,
-            toll: t,
-            segments: &segments,
-            continuous: &continuous,
-            factors: &factors,
-        })
+        crate::toll::stage::run(
+            &crate::toll::stage::TollInput {
+                network: &data.network,
+                stations: &data.stations,
+                toll: t,
+                segments: &segments,
+                continuous: &continuous,
+                factors: &factors,
+                counts: &data.counts,
+                filter: &qc,
+            },
+            &settings.toll,
+        )
     });
     let design_input = crate::design::stage::DesignInput {
         network: &data.network,

@@ -78,6 +78,7 @@ pub fn write_all(r: &Results, settings: &Settings, out: &Path) -> Result<RunRepo
             "Toll reconciliation per month",
             &keys,
             &totals,
+            &[],
         ));
         let segs = crate::toll::reconcile::summarise_by_segment(&ok);
         let keys: Vec<(String, String)> = segs
@@ -85,11 +86,21 @@ pub fn write_all(r: &Results, settings: &Settings, out: &Path) -> Result<RunRepo
             .map(|m| (m.segment.0.clone(), m.group.as_str().to_string()))
             .collect();
         let totals: Vec<_> = segs.iter().map(|m| m.totals.clone()).collect();
+        let advice: Vec<Option<&str>> = segs
+            .iter()
+            .map(|m| {
+                toll.iter()
+                    .filter(|t| t.record.group == m.group)
+                    .filter(|t| data.network.segments[t.record.segment].id == m.segment)
+                    .find_map(|t| t.advice)
+            })
+            .collect();
         all.push(tables::toll_summary(
             "toll_by_segment",
             "Toll reconciliation per segment",
             &keys,
             &totals,
+            &advice,
         ));
     }
     let days = if chrono::NaiveDate::from_ymd_opt(r.year, 2, 29).is_some() {

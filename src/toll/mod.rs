@@ -15,7 +15,9 @@
 //!   the day parts (independent), see [`profile`]; the 95 % interval is
 //!   `estimate · exp(±1.96 · s)`.
 //! - [`reconcile`](mod@reconcile): verdict `over_billed` when the billed figure is above the upper
-//!   bound, `under_billed` below the lower bound, `consistent` otherwise; summaries; payment
+//!   bound, `under_billed` below the lower bound; inside, `inconclusive` when the interval
+//!   cannot detect a discrepancy of `[toll] detectable_pct` (default 5 %), `consistent`
+//!   otherwise; summaries; payment
 //!   `= vehicles · length_km · rate per vehicle-km`.
 //!
 //! # Units
@@ -40,9 +42,9 @@ pub use profile::{
     DEFAULT_COUNTER_DAY_LOG_SD, DEFAULT_DAY_LOG_SD, DEFAULT_FACTOR_LOG_SD, Z95,
 };
 pub use reconcile::{
-    payment, reconcile, reconcile_row, row_payment, summarise_by_month, summarise_by_segment,
-    MonthSummary, Payment, ReconciliationRow, RowPayment, SegmentSummary, TollRates, TollRow,
-    TollTotals, Verdict,
+    detectable_pct, payment, reconcile, reconcile_row, row_payment, summarise_by_month,
+    summarise_by_segment, MonthSummary, Payment, ReconciliationRow, RowPayment, SegmentSummary,
+    TollParams, TollRates, TollRow, TollTotals, Verdict,
 };
 
 use chrono::NaiveDate;

@@ -11,7 +11,9 @@
 //!   `m = AADT_g / F(dow, month)`, `F = AADT / MADW` (TMG convention, so a factor above 1
 //!   marks a quieter-than-average cell), `AADT_all = AADT`, `AADT_heavy = AADT · h`,
 //!   `AADT_light = AADT · (1 − h)`; with separate heavy factors, heavy days use them and
-//!   light = all − heavy. `shared = √(s_AADT² + s_share² + s_F²)`: the AADT error is
+//!   light = all − heavy. `shared = √(s_AADT² + s_share² + s_F²)`, `s_F` the cell's own
+//!   factor log-sd where given (the stage passes the group's between-counter spread of that
+//!   cell, calibrated out of sample; heavy vehicles the heavy factors' spread): the AADT error is
 //!   systematic (the same AADT feeds every day) and dominates, and the factor error is
 //!   treated as shared too (the days of one month reuse the same few cells), which is
 //!   conservative. `own = s_day`, the day-to-day variation of real traffic around its
@@ -150,8 +152,13 @@ pub struct FactorProfile {
     /// Heavy-vehicle factors `AADT_heavy / MADW_heavy`, same layout; `None` uses
     /// `dow_month` for heavy vehicles too.
     pub heavy_dow_month: Option<[[f64; 12]; 7]>,
-    /// Log-sd of a factor (shared within a period).
+    /// Log-sd of a factor (shared within a period), where no cell log-sds are given.
     pub factor_log_sd: f64,
+    /// Log-sd of each cell's factor for this segment (`[dow][month]`, all vehicles): the
+    /// group's between-counter spread as a prediction error; `None` uses `factor_log_sd`.
+    pub cell_log_sd: Option<[[f64; 12]; 7]>,
+    /// The same for the heavy factors; `None` uses `cell_log_sd`.
+    pub heavy_cell_log_sd: Option<[[f64; 12]; 7]>,
     /// Day-to-day variation of traffic around its expectation (own).
     pub day_log_sd: f64,
 }
@@ -176,6 +183,8 @@ impl FactorProfile {
             dow_month,
             heavy_dow_month: None,
             factor_log_sd: DEFAULT_FACTOR_LOG_SD,
+            cell_log_sd: None,
+            heavy_cell_log_sd: None,
             day_log_sd: DEFAULT_DAY_LOG_SD,
         }
     }
@@ -209,6 +218,12 @@ impl FactorProfile {
         for f in tables.flatten().flatten() {
             if !(*f > 0.0 && f.is_finite()) {
                 return bad("factor", *f, "a finite factor > 0");
+            }
+        }
+        let sds = self.cell_log_sd.iter().chain(self.heavy_cell_log_sd.iter());
+        for s in sds.flatten().flatten() {
+            if !(*s >= 0.0 && s.is_finite()) {
+                return bad("cell_log_sd", *s, "a finite log-sd >= 0");
             }
         }
         for (name, s) in [
@@ -262,10 +277,15 @@ impl DailyProfile for FactorProfile {
             VehicleGroup::Heavy => heavy,
             VehicleGroup::Light => all - heavy,
         };
-        let shared = (self.aadt_log_sd().powi(2)
-            + self.share_log_sd(group).powi(2)
-            + self.factor_log_sd.powi(2))
-        .sqrt();
+        let (i, j) = cell(date);
+        let all_sd = self.cell_log_sd.map_or(self.factor_log_sd, |t| t[i][j]);
+        let factor_sd = match group {
+            VehicleGroup::Heavy => self.heavy_cell_log_sd.map_or(all_sd, |t| t[i][j]),
+            _ => all_sd,
+        };
+        let shared =
+            (self.aadt_log_sd().powi(2) + self.share_log_sd(group).powi(2) + factor_sd.powi(2))
+                .sqrt();
         DayEstimate {
             mean,
             source: DaySource::Factored,
@@ -540,6 +560,37 @@ mod tests {
         );
         assert_eq!((four.measured_days, four.factored_days), (3, 1));
         assert!(four.log_sd > all.log_sd);
+    }
+
+    /// A classifying counter that measured every day of March: the heavy estimate is the sum
+    /// of its heavy counts exactly (an arithmetic identity), whatever the fallback's heavy
+    /// share or factors say; light is the total less heavy, day by day.
+    #[test]
+    fn fully_counted_month_heavy_is_the_sum_of_measured_heavy() {
+        let mut days = BTreeMap::new();
+        let mut heavy_sum = 0.0;
+        let mut light_sum = 0.0;
+        for (k, date) in d("2025-03-01").iter_days().take(31).enumerate() {
+            // Heavy traffic with its own weekly rhythm, unlike the fallback's 20 % share.
+            let heavy = (3_000 + 1_700 * (k % 7) as u64) as f64;
+            let total = (20_000 + 311 * k as u64) as f64;
+            heavy_sum += heavy;
+            light_sum += total - heavy;
+            days.insert(
+                date,
+                CounterDay {
+                    total,
+                    heavy: Some(heavy),
+                },
+            );
+        }
+        let c = CounterDays::new(days, profile());
+        let (from, to) = (d("2025-03-01"), d("2025-03-31"));
+        let heavy = period_estimate(&c, from, to, VehicleGroup::Heavy).unwrap();
+        assert_eq!(heavy.estimated, heavy_sum);
+        assert_eq!((heavy.measured_days, heavy.factored_days), (31, 0));
+        let light = period_estimate(&c, from, to, VehicleGroup::Light).unwrap();
+        assert_eq!(light.estimated, light_sum);
     }
 
     /// A fully counted month is tight: all ≈ ±5 %, light a little wider with the share.

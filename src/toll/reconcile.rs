@@ -5,8 +5,11 @@
 //! - Per `toll.csv` row: the [`period_estimate`] of its segment, period and group;
 //!   `difference = billed − estimated`, `difference_pct = 100 · difference / estimated`;
 //!   verdict [`Verdict::OverBilled`] when `billed > hi95`, [`Verdict::UnderBilled`] when
-//!   `billed < lo95`, otherwise [`Verdict::Consistent`] (the bounds themselves are
-//!   consistent).
+//!   `billed < lo95` (the bounds themselves are inside); inside the interval,
+//!   [`Verdict::Inconclusive`] when the smallest detectable discrepancy
+//!   `detectable_pct = 100 · (exp(1.96 · s) − 1)` (the billing error that just reaches the
+//!   upper bound when the estimate is right) is above [`TollParams::detectable_pct`],
+//!   otherwise [`Verdict::Consistent`].
 //! - Summaries add billed and estimated passages and count verdicts, per calendar month
 //!   (the month of a row's `from_date`; billing periods are normally calendar months) and
 //!   per segment, each per vehicle group (so `all` is never added to `light` or `heavy`).
@@ -29,7 +32,7 @@ use std::collections::BTreeMap;
 use chrono::{Datelike, NaiveDate};
 use serde::Deserialize;
 
-use super::profile::{period_estimate, DailyProfile};
+use super::profile::{period_estimate, DailyProfile, Z95};
 use super::{TollError, VehicleGroup};
 use crate::model::SegmentId;
 
@@ -51,8 +54,12 @@ pub struct TollRow {
 /// Whether a billed figure agrees with the estimate.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
 pub enum Verdict {
-    /// Inside the 95 % interval (bounds included).
+    /// Inside the 95 % interval (bounds included), which is narrow enough to detect the
+    /// discrepancy the audit asks for.
     Consistent,
+    /// Inside an interval too wide to detect that discrepancy: the data neither confirm nor
+    /// dispute the billing.
+    Inconclusive,
     /// Above the upper bound.
     OverBilled,
     /// Below the lower bound.
@@ -77,10 +84,33 @@ impl Verdict {
         }
     }
 
-    /// The contract's spelling: `consistent`, `over_billed`, `under_billed`.
+    /// The verdict of `billed` against `[lo95, hi95]` when the row can detect a discrepancy
+    /// of `detectable_pct` and the audit asks for `threshold_pct`: inside the interval,
+    /// [`Verdict::Inconclusive`] when `detectable_pct > threshold_pct`.
+    ///
+    /// ```
+    /// use roadtally::toll::Verdict;
+    /// assert_eq!(Verdict::judge(100.0, 70.0, 140.0, 40.0, 5.0), Verdict::Inconclusive);
+    /// assert_eq!(Verdict::judge(150.0, 70.0, 140.0, 40.0, 5.0), Verdict::OverBilled);
+    /// ```
+    pub fn judge(
+        billed: f64,
+        lo95: f64,
+        hi95: f64,
+        detectable_pct: f64,
+        threshold_pct: f64,
+    ) -> Verdict {
+        match Verdict::of(billed, lo95, hi95) {
+            Verdict::Consistent if detectable_pct > threshold_pct => Verdict::Inconclusive,
+            v => v,
+        }
+    }
+
+    /// The contract's spelling: `consistent`, `inconclusive`, `over_billed`, `under_billed`.
     pub fn as_str(self) -> &'static str {
         match self {
             Verdict::Consistent => "consistent",
+            Verdict::Inconclusive => "inconclusive",
             Verdict::OverBilled => "over_billed",
             Verdict::UnderBilled => "under_billed",
         }
@@ -116,14 +146,23 @@ pub struct ReconciliationRow {
     pub difference: f64,
     /// `100 · difference / estimated`; `None` when the estimate is 0.
     pub difference_pct: Option<f64>,
+    /// Smallest billing discrepancy the row can detect, `100 · (exp(1.96 · s) − 1)`, %.
+    pub detectable_pct: f64,
     /// The verdict.
     pub verdict: Verdict,
+}
+
+/// Smallest detectable discrepancy of an estimate with log-sd `s`, percent:
+/// `100 · (exp(1.96 · s) − 1)`, the over-billing that just reaches the upper bound.
+pub fn detectable_pct(log_sd: f64) -> f64 {
+    100.0 * ((Z95 * log_sd).exp() - 1.0)
 }
 
 /// Reconciles one billed row against `profile` (the row's segment's profile).
 pub fn reconcile_row(
     row: &TollRow,
     profile: &dyn DailyProfile,
+    params: &TollParams,
 ) -> Result<ReconciliationRow, TollError> {
     let e = period_estimate(profile, row.from_date, row.to_date, row.group)?;
     let billed = row.billed_vehicles as f64;
@@ -142,7 +181,14 @@ pub fn reconcile_row(
         factored_days: e.factored_days,
         difference,
         difference_pct: (e.estimated > 0.0).then(|| 100.0 * difference / e.estimated),
-        verdict: Verdict::of(billed, e.lo95, e.hi95),
+        detectable_pct: detectable_pct(e.log_sd),
+        verdict: Verdict::judge(
+            billed,
+            e.lo95,
+            e.hi95,
+            detectable_pct(e.log_sd),
+            params.detectable_pct,
+        ),
     })
 }
 
@@ -150,6 +196,7 @@ pub fn reconcile_row(
 pub fn reconcile<'a, F>(
     rows: &[TollRow],
     profile_of: F,
+    params: &TollParams,
 ) -> Result<Vec<ReconciliationRow>, TollError>
 where
     F: Fn(&SegmentId) -> Option<&'a dyn DailyProfile>,
@@ -158,7 +205,7 @@ where
         .map(|r| {
             let p =
                 profile_of(&r.segment).ok_or_else(|| TollError::NoProfile(r.segment.clone()))?;
-            reconcile_row(r, p)
+            reconcile_row(r, p, params)
         })
         .collect()
 }
@@ -178,15 +225,28 @@ pub struct TollTotals {
     pub difference_pct: Option<f64>,
     /// Rows judged consistent.
     pub consistent: u32,
+    /// Rows judged inconclusive.
+    pub inconclusive: u32,
     /// Rows judged over-billed.
     pub over_billed: u32,
     /// Rows judged under-billed.
     pub under_billed: u32,
+    /// The rows' smallest detectable discrepancies, %, in row order.
+    pub detectable_pcts: Vec<f64>,
 }
 
 impl TollTotals {
+    /// Median of the rows' smallest detectable discrepancies, %; `None` without rows.
+    pub fn median_detectable_pct(&self) -> Option<f64> {
+        let mut v = self.detectable_pcts.clone();
+        v.sort_by(f64::total_cmp);
+        let n = v.len();
+        (n > 0).then(|| (v[(n - 1) / 2] + v[n / 2]) / 2.0)
+    }
+
     fn add(&mut self, r: &ReconciliationRow) {
         self.rows += 1;
+        self.detectable_pcts.push(r.detectable_pct);
         self.billed_vehicles += r.billed_vehicles;
         self.estimated_vehicles += r.estimated_vehicles;
         self.difference = self.billed_vehicles as f64 - self.estimated_vehicles;
@@ -194,6 +254,7 @@ impl TollTotals {
             .then(|| 100.0 * self.difference / self.estimated_vehicles);
         match r.verdict {
             Verdict::Consistent => self.consistent += 1,
+            Verdict::Inconclusive => self.inconclusive += 1,
             Verdict::OverBilled => self.over_billed += 1,
             Verdict::UnderBilled => self.under_billed += 1,
         }
@@ -256,10 +317,15 @@ pub fn summarise_by_segment(rows: &[ReconciliationRow]) -> Vec<SegmentSummary> {
         .collect()
 }
 
-/// Toll rates per vehicle-km by vehicle group (`study.toml`); a missing key is `None`.
-#[derive(Debug, Clone, Default, PartialEq, Deserialize, serde::Serialize)]
+/// The `[toll]` settings: the discrepancy an audit must be able to detect, and the toll
+/// rates per vehicle-km by vehicle group (a missing rate is `None`).
+#[derive(Debug, Clone, PartialEq, Deserialize, serde::Serialize)]
 #[serde(default, deny_unknown_fields)]
-pub struct TollRates {
+pub struct TollParams {
+    /// A row whose 95 % interval cannot detect a billing discrepancy of this size, percent,
+    /// is `inconclusive` rather than `consistent`. Default 5 (common practice: a toll audit
+    /// disputes errors of a few percent).
+    pub detectable_pct: f64,
     /// Rate for light vehicles, currency per vehicle-km.
     pub light_per_vkm: Option<f64>,
     /// Rate for heavy vehicles, currency per vehicle-km.
@@ -268,7 +334,21 @@ pub struct TollRates {
     pub all_per_vkm: Option<f64>,
 }
 
-impl TollRates {
+impl Default for TollParams {
+    fn default() -> Self {
+        TollParams {
+            detectable_pct: 5.0,
+            light_per_vkm: None,
+            heavy_per_vkm: None,
+            all_per_vkm: None,
+        }
+    }
+}
+
+/// The `[toll]` settings under their earlier name (the rates are part of them).
+pub type TollRates = TollParams;
+
+impl TollParams {
     /// The rate of `group`, if set.
     pub fn rate(&self, group: VehicleGroup) -> Option<f64> {
         match group {
@@ -361,6 +441,14 @@ mod tests {
         }
     }
 
+    /// Settings that can detect 20 %: the flat profile's ±10 % interval is conclusive.
+    fn wide() -> TollParams {
+        TollParams {
+            detectable_pct: 20.0,
+            ..TollParams::default()
+        }
+    }
+
     fn row(seg: &str, from: &str, to: &str, group: VehicleGroup, billed: u64) -> TollRow {
         TollRow {
             segment: SegmentId::from(seg),
@@ -389,6 +477,7 @@ mod tests {
             let r = reconcile_row(
                 &row("S1", "2025-03-01", "2025-03-10", VehicleGroup::All, billed),
                 &Flat,
+                &wide(),
             )
             .unwrap();
             assert_eq!(r.verdict, v, "billed {billed}");
@@ -397,15 +486,37 @@ mod tests {
         let r = reconcile_row(
             &row("S1", "2025-03-01", "2025-03-10", VehicleGroup::All, 12_000),
             &Flat,
+            &wide(),
         )
         .unwrap();
         assert_relative_eq!(r.difference_pct.unwrap(), 20.0, max_relative = 1e-12);
         assert_eq!(r.verdict.as_str(), "over_billed");
         assert_eq!(Verdict::UnderBilled.as_str(), "under_billed");
+        // The same ±10 % interval cannot detect the default 5 %: inside it, inconclusive;
+        // outside it, still flagged.
+        let at = |billed: u64| {
+            reconcile_row(
+                &row("S1", "2025-03-01", "2025-03-10", VehicleGroup::All, billed),
+                &Flat,
+                &TollParams::default(),
+            )
+            .unwrap()
+        };
+        let r = at(10_000);
+        assert_eq!(r.verdict, Verdict::Inconclusive);
+        assert_relative_eq!(
+            r.detectable_pct,
+            100.0 * ((Z95 * 0.05).exp() - 1.0),
+            max_relative = 1e-12
+        );
+        assert_eq!(at(12_000).verdict, Verdict::OverBilled);
+        assert_eq!(at(8_000).verdict, Verdict::UnderBilled);
     }
 
     /// Demo-like month: a counter that measured every day of February; honest billing with
-    /// ±1 % noise is consistent, a 10 % over-billing is flagged, for light and all.
+    /// ±1 % noise is consistent, a 10 % over-billing is flagged, for light and all (at a 6 %
+    /// detectable discrepancy: the light split of an unclassified counter rests on the heavy
+    /// share, so its interval is a little wider than ±5 %).
     #[test]
     fn counted_month_separates_ten_percent_misbilling() {
         let mut days = BTreeMap::new();
@@ -433,8 +544,12 @@ mod tests {
                 (0.90, Verdict::UnderBilled),
             ] {
                 let billed = (e.estimated * factor).round() as u64;
-                let r = reconcile_row(&row("S1", "2025-02-01", "2025-02-28", group, billed), &c)
-                    .unwrap();
+                let r = reconcile_row(
+                    &row("S1", "2025-02-01", "2025-02-28", group, billed),
+                    &c,
+                    &wide(),
+                )
+                .unwrap();
                 assert_eq!(r.verdict, verdict, "{group:?} x{factor}");
                 assert_eq!(r.measured_days, 28);
             }
@@ -448,15 +563,19 @@ mod tests {
             row("S2", "2025-01-01", "2025-01-31", VehicleGroup::All, 1),
         ];
         let flat = Flat;
-        let out = reconcile(&rows[..1], |s| {
-            (s.as_str() == "S1").then_some(&flat as &dyn DailyProfile)
-        })
+        let out = reconcile(
+            &rows[..1],
+            |s| (s.as_str() == "S1").then_some(&flat as &dyn DailyProfile),
+            &TollParams::default(),
+        )
         .unwrap();
         assert_eq!(out.len(), 1);
         assert_relative_eq!(out[0].estimated_vehicles, 31_000.0, max_relative = 1e-12);
-        let err = reconcile(&rows, |s| {
-            (s.as_str() == "S1").then_some(&flat as &dyn DailyProfile)
-        });
+        let err = reconcile(
+            &rows,
+            |s| (s.as_str() == "S1").then_some(&flat as &dyn DailyProfile),
+            &TollParams::default(),
+        );
         assert_eq!(err, Err(TollError::NoProfile(SegmentId::from("S2"))));
     }
 
@@ -493,7 +612,7 @@ mod tests {
             ),
         ];
         let flat = Flat;
-        let rec = reconcile(&rows, |_| Some(&flat as &dyn DailyProfile)).unwrap();
+        let rec = reconcile(&rows, |_| Some(&flat as &dyn DailyProfile), &wide()).unwrap();
         let m = summarise_by_month(&rec);
         assert_eq!(m.len(), 3);
         assert_eq!(
@@ -548,6 +667,7 @@ mod tests {
                 10_500,
             ),
             &Flat,
+            &TollParams::default(),
         )
         .unwrap();
         let rp = row_payment(&r, 4.0, &rates).unwrap();
@@ -594,10 +714,12 @@ mod tests {
             for prof in [&p as &dyn DailyProfile, &c as &dyn DailyProfile] {
                 let e = period_estimate(prof, from, to, group).unwrap();
                 prop_assert_eq!(Verdict::of(e.estimated, e.lo95, e.hi95), Verdict::Consistent);
+                prop_assert!(detectable_pct(e.log_sd) >= 0.0);
                 prop_assert!(e.lo95 <= e.estimated && e.estimated <= e.hi95);
                 if e.estimated > 1000.0 {
-                    let r = reconcile_row(&TollRow { segment: SegmentId::from("S"), from_date: from, to_date: to, group, billed_vehicles: e.estimated.round() as u64 }, prof).unwrap();
-                    prop_assert_eq!(r.verdict, Verdict::Consistent);
+                    let r = reconcile_row(&TollRow { segment: SegmentId::from("S"), from_date: from, to_date: to, group, billed_vehicles: e.estimated.round() as u64 }, prof, &TollParams::default()).unwrap();
+                    prop_assert!(matches!(r.verdict, Verdict::Consistent | Verdict::Inconclusive));
+                    prop_assert_eq!(r.verdict == Verdict::Inconclusive, r.detectable_pct > 5.0);
                 }
             }
         }

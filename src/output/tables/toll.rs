@@ -25,6 +25,8 @@ pub fn toll_reconciliation(
             col("verdict", "", Format::Text),
             col("difference", "veh", Format::Integer),
             col("difference_pct", "%", Format::Decimal(2)),
+            col("detectable_pct", "%", Format::Decimal(1)),
+            col("basis", "", Format::Text),
             col("measured_days", "days", Format::Integer),
             col("factored_days", "days", Format::Integer),
             col("billed_payment", "currency", Format::Decimal(2)),
@@ -53,16 +55,19 @@ pub fn toll_reconciliation(
                     Cell::from(x.verdict.as_str()),
                     Cell::from(x.difference),
                     opt(x.difference_pct),
+                    Cell::from(x.detectable_pct),
+                    Cell::from(r.basis.as_str()),
                     Cell::from(x.measured_days),
                     Cell::from(x.factored_days),
                     opt(pay.as_ref().map(|p| p.payment.billed_payment)),
                     opt(pay.as_ref().map(|p| p.payment.estimated_payment)),
                     opt(pay.as_ref().map(|p| p.payment.difference)),
-                    Cell::Empty,
+                    r.advice
+                        .map_or(Cell::Empty, |a| Cell::from(format!("to conclude: {a}"))),
                 ]);
             }
             Err(why) => {
-                row.extend(std::iter::repeat_n(Cell::Empty, 11));
+                row.extend(std::iter::repeat_n(Cell::Empty, 13));
                 row.push(Cell::from(format!("not estimated: {why}")));
             }
         }
@@ -71,12 +76,14 @@ pub fn toll_reconciliation(
     t
 }
 
-/// Per-month or per-segment toll summaries.
+/// Per-month or per-segment toll summaries; `advice` (empty, or one per key) says what
+/// would make the key's inconclusive rows conclusive.
 pub fn toll_summary(
     name: &str,
     title: &str,
     keys: &[(String, String)],
     totals: &[crate::toll::reconcile::TollTotals],
+    advice: &[Option<&str>],
 ) -> Table {
     let mut t = Table::new(
         name,
@@ -89,11 +96,14 @@ pub fn toll_summary(
             col("estimated_vehicles", "veh", Format::Integer),
             col("difference_pct", "%", Format::Decimal(2)),
             col("consistent", "", Format::Integer),
+            col("inconclusive", "", Format::Integer),
             col("over_billed", "", Format::Integer),
             col("under_billed", "", Format::Integer),
+            col("median_detectable_pct", "%", Format::Decimal(1)),
+            col("to_conclude", "", Format::Text),
         ],
     );
-    for ((k, g), x) in keys.iter().zip(totals) {
+    for (n, ((k, g), x)) in keys.iter().zip(totals).enumerate() {
         t.push(vec![
             Cell::from(k.as_str()),
             Cell::from(g.as_str()),
@@ -102,8 +112,15 @@ pub fn toll_summary(
             Cell::from(x.estimated_vehicles),
             opt(x.difference_pct),
             Cell::from(x.consistent),
+            Cell::from(x.inconclusive),
             Cell::from(x.over_billed),
             Cell::from(x.under_billed),
+            opt(x.median_detectable_pct()),
+            advice
+                .get(n)
+                .copied()
+                .flatten()
+                .map_or(Cell::Empty, Cell::from),
         ]);
     }
     t
