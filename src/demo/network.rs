@@ -2,8 +2,11 @@
 //!
 //! # Method
 //!
-//! The region is laid out on a local plane in km and converted to lon/lat around 10.2 E,
-//! 45.2 N (numbers only, no real place). Roads are drawn as routes, polylines through nodes:
+//! The region is laid out on a local plane in km and converted to lon/lat from 71.0 W,
+//! 29.5 N, extending east and north (at most ~90 km, the large size): open Atlantic, more
+//! than 500 km from Bermuda and 600 km from the mainland coast or the Bahamas, so no real
+//! settlement lies beneath it on a basemap, and inside the nominal UTC-05:00 band (67.5 W to
+//! 82.5 W) that the demo clock's standard offset assumes. Roads are drawn as routes, polylines through nodes:
 //!
 //! * a rural grid of jittered nodes whose rows and columns are minor arterials (class 4),
 //!   major collectors (5) and minor collectors (6);
@@ -36,8 +39,9 @@ use rand_distr::{Distribution, Normal};
 use super::sink::CsvSink;
 use super::{DemoError, Scale};
 
-const LON0: f64 = 10.2;
-const LAT0: f64 = 45.2;
+/// South-west origin of the region, degrees (west and south negative); see the module docs.
+const LON0: f64 = -71.0;
+const LAT0: f64 = 29.5;
 const KM_PER_DEG_LAT: f64 = 110.574;
 const KM_PER_DEG_LON_EQUATOR: f64 = 111.320;
 const EARTH_RADIUS_KM: f64 = 6371.0088;
