@@ -27,7 +27,7 @@ use rayon::prelude::*;
 use crate::model::Network;
 
 /// Seed of the origin sample.
-pub const SEED: u64 = 0x5EED_B7;
+pub const SEED: u64 = 0x005E_EDB7;
 /// Decay times, minutes.
 pub const TAU_LOCAL_MIN: f64 = 10.0;
 /// Regional decay, minutes.
