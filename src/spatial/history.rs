@@ -17,6 +17,8 @@
 //! beyond 5 robust sd, `1.4826 · MAD`, left out as gross errors). With fewer than [`MIN_PAIRS`] pairs the defaults of
 //! [`HistoryVariance::assumed`] hold (assumptions, stated in the model note).
 
+use crate::expansion::calibration::quantile;
+
 /// A segment's latest published AADT brought to the study year.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct HistoryPoint {
@@ -80,9 +82,9 @@ impl HistoryVariance {
                 continue;
             }
             let n = d.len() as f64;
-            let med = median(&mut d);
+            let med = quantile(&mut d, 0.5);
             let mut dev: Vec<f64> = d.iter().map(|x| (x - med).abs()).collect();
-            let mad = 1.4826 * median(&mut dev);
+            let mad = 1.4826 * quantile(&mut dev, 0.5);
             // Mean square about zero (a bias of the history is part of its error), without
             // gross outliers (beyond 5 robust sd: a wrong segment id, a road rebuilt).
             let kept: Vec<f64> = d
@@ -113,16 +115,6 @@ impl HistoryVariance {
             b,
             pairs: pairs.len(),
         }
-    }
-}
-
-fn median(v: &mut [f64]) -> f64 {
-    v.sort_by(f64::total_cmp);
-    let n = v.len();
-    if n % 2 == 1 {
-        v[n / 2]
-    } else {
-        (v[n / 2 - 1] + v[n / 2]) / 2.0
     }
 }
 
