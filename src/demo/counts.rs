@@ -36,7 +36,7 @@ use super::sink::CsvSink;
 use super::{DemoError, DemoParams, Scale};
 
 /// Day-to-day variation of volumes, as a coefficient of variation.
-const DAY_CV: f64 = 0.08;
+pub(crate) const DAY_CV: f64 = 0.08;
 /// Record-to-record variation on top of Poisson noise.
 const INTERVAL_CV: f64 = 0.05;
 /// Axles per vehicle by FHWA class (class 1 first); fractional where a class mixes axle
@@ -254,7 +254,7 @@ impl Noise {
 }
 
 /// Lognormal with mean 1 and coefficient of variation `cv`.
-fn mean_one_lognormal(cv: f64) -> LogNormal<f64> {
+pub(crate) fn mean_one_lognormal(cv: f64) -> LogNormal<f64> {
     let sigma = (1.0 + cv * cv).ln().sqrt();
     LogNormal::new(-0.5 * sigma * sigma, sigma).expect("finite parameters")
 }
@@ -395,6 +395,31 @@ pub(crate) struct CountsOutcome {
     pub gaps: Vec<GapRow>,
     /// Station-days touched by a disturbance.
     pub disturbed: Vec<DisturbedDay>,
+    /// Vehicles that really passed each day on the tolled segments with a counter, before any
+    /// fault is injected: what a toll system bills (empty for short counts).
+    pub passages: Passages,
+}
+
+/// Vehicles that passed one tolled segment on one day, both directions: (light classes 1-3,
+/// heavy classes 4-13); an unclassified counter splits by the segment's heavy share.
+pub(crate) type Passages = std::collections::HashMap<(usize, NaiveDate), (f64, f64)>;
+
+/// The vehicles of one day's records as (light, heavy).
+fn day_passages(recs: &[Vec<Rec>; 2], heavy_share: f64) -> (f64, f64) {
+    let (mut light, mut heavy) = (0.0, 0.0);
+    for r in recs.iter().flatten() {
+        match &r.classes {
+            Some(c) => {
+                light += c[..3].iter().sum::<u32>() as f64;
+                heavy += c[3..].iter().sum::<u32>() as f64;
+            }
+            None => {
+                light += r.vehicles as f64 * (1.0 - heavy_share);
+                heavy += r.vehicles as f64 * heavy_share;
+            }
+        }
+    }
+    (light, heavy)
 }
 
 /// Records the disturbance kinds of one station-day.
@@ -443,8 +468,10 @@ pub(crate) fn write_continuous(
     let mut buf = RowBuf::new();
     let mut fault_rows = Vec::new();
     let mut disturbed = Vec::new();
+    let mut passages = Passages::new();
     for st in &plan.continuous {
         let seg = &net.segments[st.segment];
+        let tolled = net.tolled.contains(&st.segment);
         let pattern = &pats[seg.pattern];
         let norm = pattern.norm(year);
         let days = if st.minutes == 15 { &quarter } else { &hourly };
@@ -466,6 +493,9 @@ pub(crate) fn write_continuous(
                 st.minutes,
                 st.classified,
             );
+            if tolled {
+                passages.insert((st.segment, date), day_passages(&recs, seg.heavy_share()));
+            }
             if let Some(&(_, kind)) = fault_days.iter().find(|(fd, _)| *fd == d) {
                 inject(rng, kind, &mut recs, &st.id, date, &mut fault_rows);
             }
@@ -491,6 +521,7 @@ pub(crate) fn write_continuous(
         bad_rows: Vec::new(),
         gaps: Vec::new(),
         disturbed,
+        passages,
     })
 }
 
@@ -661,6 +692,7 @@ pub(crate) fn write_short(
         bad_rows,
         gaps: gap_rows,
         disturbed,
+        passages: Passages::new(),
     })
 }
 

@@ -10,7 +10,8 @@
 //! above, 60 % of minor arterials, 35 % of major collectors and 12 % of the rest.
 //!
 //! Toll: monthly billing for each tolled segment and vehicle group; the true passages are the
-//! generator's expected volumes (no day noise) summed over the month, both directions;
+//! vehicles that passed, summed over the month, both directions (the counter's drawn vehicles
+//! before faults where there is a counter, else expected volume x a day factor, CV 8 %);
 //! billed = true x (1 + N(0, 1 %)), except exactly one row billed at true x 1.10.
 //!
 //! # Units
@@ -25,11 +26,14 @@ use rand::Rng;
 use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, LogNormal, Normal};
 
-use super::counts::StationPlan;
+use super::counts::{mean_one_lognormal, Passages, StationPlan, DAY_CV};
 use super::network::Network;
 use super::patterns::{days_of_year, Pattern};
 use super::sink::{self, CsvSink};
 use super::{DemoError, DemoParams};
+
+/// Seed offset of the day factors of tolled segments without a counter.
+pub(crate) const TOLL_STREAM: u64 = 0x746f_6c6c_0000_0001;
 
 /// Years of history before the study year.
 const HISTORY_YEARS: i32 = 5;
@@ -118,36 +122,54 @@ struct TollRow {
 /// Writes `toll.csv` and `truth/toll_truth.csv`. Exactly one segment-month is billed 10 %
 /// high, on a tolled segment with a permanent counter (`counted`) where there is one: the
 /// case an audit with measured days must detect.
+///
+/// The true passages are the vehicles that really passed, as a toll system counts them: on a
+/// segment with a counter the day's drawn vehicles before any fault (`passages`), elsewhere
+/// the expected volume times a day factor of the same spread as the counts' (drawn from
+/// `day_rng`, a stream of its own).
 #[allow(clippy::too_many_arguments)]
 pub(crate) fn write_toll(
     rng: &mut ChaCha8Rng,
+    day_rng: &mut ChaCha8Rng,
     out: &Path,
     net: &Network,
     pats: &[Pattern],
     disturb: &Plan,
+    passages: &Passages,
     counted: &[usize],
     year: i32,
 ) -> Result<Vec<PathBuf>, DemoError> {
     let days = days_of_year(year);
     let noise = Normal::new(0.0, 0.01).expect("finite sd");
+    let day_factor = mean_one_lognormal(DAY_CV);
     let mut rows = Vec::new();
     for &s in &net.tolled {
         let seg = &net.segments[s];
         let pattern = &pats[seg.pattern];
         let norm = pattern.norm(year);
         let heavy = seg.heavy_share();
+        let mut passed = |d: NaiveDate| -> (f64, f64) {
+            if let Some(&p) = passages.get(&(s, d)) {
+                return p;
+            }
+            let v = seg.aadt
+                * pattern.day_level(d, norm)
+                * disturb.day_share(s, pattern, d)
+                * day_factor.sample(day_rng);
+            (v * (1.0 - heavy), v * heavy)
+        };
         for month in 1..=12 {
             let in_month: Vec<NaiveDate> = days
                 .iter()
                 .copied()
                 .filter(|d| d.month() == month)
                 .collect();
-            let total: f64 = in_month
+            let (light, heavy) = in_month
                 .iter()
-                .map(|&d| seg.aadt * pattern.day_level(d, norm) * disturb.day_share(s, pattern, d))
-                .sum();
-            for (group, share) in [("light", 1.0 - heavy), ("heavy", heavy)] {
-                let true_vehicles = (total * share).round();
+                .map(|&d| passed(d))
+                .fold((0.0, 0.0), |(l, h), (dl, dh)| (l + dl, h + dh));
+            for (group, vehicles) in [("light", light), ("heavy", heavy)] {
+                let true_vehicles = vehicles.round();
                 let billed = (true_vehicles * (1.0 + noise.sample(rng))).round();
                 rows.push(TollRow {
                     segment: seg.id.clone(),

@@ -269,7 +269,17 @@ pub(crate) fn generate_scaled(
         &plan,
         params.year,
     )?);
-    let toll = extras::write_toll(&mut rng, out, &net, &pats, &disturb, &counters, params.year)?;
+    let toll = extras::write_toll(
+        &mut rng,
+        &mut ChaCha8Rng::seed_from_u64(params.seed ^ extras::TOLL_STREAM),
+        out,
+        &net,
+        &pats,
+        &disturb,
+        &cont.passages,
+        &counters,
+        params.year,
+    )?;
     files.extend(toll);
 
     let mut fault_rows = cont.faults;

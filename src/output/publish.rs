@@ -367,6 +367,8 @@ pub fn report_data(r: &Results, tables: &BTreeMap<String, Table>) -> ReportData 
     let q = &r.qc.summary;
     let extra: Vec<Table> = [
         "factor_groups",
+        // Per segment: the verdicts and what would make the audit conclusive.
+        "toll_by_segment",
         "toll_reconciliation",
         "design_inputs",
         "spatial_model",

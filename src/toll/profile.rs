@@ -251,6 +251,9 @@ impl FactorProfile {
         match group {
             VehicleGroup::All => 0.0,
             VehicleGroup::Heavy => log_sd_from_interval(lo, hi),
+            // A heavy interval reaching 1 leaves no lower end for light in log terms: take
+            // the upper side's width for both.
+            VehicleGroup::Light if h < 1.0 && hi >= 1.0 => ((1.0 - lo) / (1.0 - h)).ln() / Z95,
             VehicleGroup::Light if h < 1.0 => log_sd_from_interval(1.0 - hi, 1.0 - lo),
             VehicleGroup::Light => 0.0,
         }
@@ -479,6 +482,24 @@ mod tests {
         assert_relative_eq!(light.estimated, 0.8 * sum, max_relative = 1e-12);
         // Light share 0.78..0.82 is tighter in log terms than heavy 0.18..0.22.
         assert!(light.log_sd < heavy.log_sd);
+    }
+
+    /// A borrowed heavy share whose interval reaches 1 (light share down to 0) still gives
+    /// light a finite interval, as wide on the low side as the high side: ln(0.99/0.8)/1.96.
+    #[test]
+    fn a_heavy_share_interval_reaching_one_leaves_light_finite() {
+        let mut p = profile();
+        p.heavy_share_lo95 = 0.01;
+        p.heavy_share_hi95 = 1.0;
+        p.validate().unwrap();
+        assert_relative_eq!(
+            p.share_log_sd(VehicleGroup::Light),
+            (0.99f64 / 0.8).ln() / Z95,
+            max_relative = 1e-12
+        );
+        let light =
+            period_estimate(&p, d("2025-07-01"), d("2025-07-31"), VehicleGroup::Light).unwrap();
+        assert!(light.hi95.is_finite() && light.lo95 > 0.0);
     }
 
     #[test]

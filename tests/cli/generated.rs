@@ -435,19 +435,31 @@ fn toll_reconciliation_flags_only_the_misbilled_period() {
     }
 }
 
-/// Issue acceptance: on a freshly generated study (seed 11, small) the segment-month billed
-/// 10 % high on the counted segment is flagged over-billed, at most 1 % of the correctly
-/// billed rows are flagged either way, and every row's verdict agrees with its interval and
-/// smallest detectable discrepancy (inconclusive exactly when it is above the 5 % default).
-/// Known gap (issue 12 stays open): with the network-driven generator, seed 23 flags 2 of 71
-/// correct rows (segment S00238, April light and heavy: 28 measured days 6.5 % below the
-/// billing); seeds 11 and 37 flag none.
+/// Issue acceptance: on three freshly generated studies (seeds 11, 23 and 37, small) the
+/// segment-month billed 10 % high on the counted segment is flagged over-billed, at most 1 %
+/// of the correctly billed rows are flagged either way, and every row's verdict agrees with
+/// its interval and smallest detectable discrepancy (inconclusive exactly when it is above the
+/// 5 % default). The generator's true passages are the vehicles that passed (day noise
+/// included), as a toll system bills them; seeds 5 and 6 were also measured (no false flag).
 #[test]
 fn toll_audit_flags_the_misbilled_month_and_few_others() {
-    let dir = tempfile::tempdir().unwrap();
-    generate(&DemoParams::new(11, DemoSize::Small), dir.path()).unwrap();
-    let res = pipeline::compute(&Config::new(dir.path(), None, None, true).unwrap()).unwrap();
-    let truth = read_csv(&dir.path().join("truth/toll_truth.csv"));
+    for seed in [11, 23, 37] {
+        let dir = tempfile::tempdir().unwrap();
+        generate(&DemoParams::new(seed, DemoSize::Small), dir.path()).unwrap();
+        let res = pipeline::compute(&Config::new(dir.path(), None, None, true).unwrap()).unwrap();
+        let (ok_rows, false_flags) = toll_audit_counts(dir.path(), &res);
+        assert!(
+            false_flags as f64 <= 0.01 * ok_rows as f64,
+            "seed {seed}: {false_flags} of {ok_rows} correctly billed rows flagged"
+        );
+    }
+}
+
+/// Checks one study's toll rows against its truth: the mis-billed row is flagged over-billed
+/// on its counter, verdicts agree with the detectable discrepancy; returns (correctly billed
+/// rows, of them flagged).
+fn toll_audit_counts(study: &Path, res: &pipeline::Results) -> (usize, usize) {
+    let truth = read_csv(&study.join("truth/toll_truth.csv"));
     let toll = res.toll.as_ref().expect("the demo study has toll.csv");
     assert_eq!(truth.len(), toll.len());
     let (mut ok_rows, mut false_flags, mut misbilled_flagged) = (0, 0, 0);
@@ -473,10 +485,7 @@ fn toll_audit_flags_the_misbilled_month_and_few_others() {
         }
     }
     assert_eq!(misbilled_flagged, 1);
-    assert!(
-        false_flags as f64 <= 0.01 * ok_rows as f64,
-        "{false_flags} of {ok_rows} correctly billed rows flagged"
-    );
+    (ok_rows, false_flags)
 }
 
 /// Hours of each short-count station in `counts/short_counts.csv`: station -> distinct
