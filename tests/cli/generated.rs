@@ -673,13 +673,12 @@ fn uncounted_segments_beat_the_class_median_with_honest_intervals() {
     );
     for (g, (hit, n)) in &covered {
         let share = *hit as f64 / *n as f64;
-        // Collectors/locals over-cover slightly on this seed (97.4 % of 1,485 with the demo
-        // region moved; 96.0-96.4 % on seeds 41-43 before): the bound allows 98 %, a known
-        // gap of issue 16 (which asks for 97 %).
+        // Freeways are about 40 segments: even a perfectly calibrated 95 % interval covers
+        // 42 or 43 of 43 about a third of the time, so their bound is one-sided.
         let range = if *g == "freeway" {
             0.90..=1.0
         } else {
-            0.92..=0.98
+            0.92..=0.97
         };
         assert!(range.contains(&share), "{g}: {hit} of {n} covered");
     }

@@ -178,8 +178,10 @@ pub fn spatial_model(sp: &SpatialOutput) -> Table {
             )),
             Cell::from(c.factor),
             Cell::from(format!(
-                "factor on the prediction variance from {} leave-one-out folds, applied to {} uncounted segments",
-                c.folds, c.uncounted
+                "factor on the prediction variance from {} leave-one-out folds{}, applied to {} uncounted segments",
+                c.folds,
+                if c.cell.history { " (factor shared by every history cell)" } else { "" },
+                c.uncounted
             )),
         ]);
     }
