@@ -3,7 +3,9 @@
 
 use std::collections::BTreeMap;
 
-use super::report::{MapSegment, ReportData, Series};
+use super::report::{
+    CalendarRow, DayStatus, GroupCurves, MapMarker, MapSegment, ReportData, Series,
+};
 use super::table::{Cell, Format, Table, TableSpec};
 use super::tables::col;
 use super::xlsx::CoverSheet;
@@ -347,6 +349,14 @@ pub fn report_data(r: &Results, tables: &BTreeMap<String, Table>) -> ReportData 
                 hi95: s.aadt.hi95,
                 basis: s.basis.as_str().to_string(),
                 label: format!("{} {}", seg.id, seg.route.as_deref().unwrap_or("")),
+                id: seg.id.as_str().to_string(),
+                route: seg.route.clone().unwrap_or_default(),
+                class: format!("{} {}", seg.functional_class.code(), seg.area.as_str()),
+                group: s.group.clone(),
+                length_km: seg.length_km,
+                heavy_share: s.heavy.as_ref().map_or(f64::NAN, |h| h.value),
+                k_factor: s.k.as_ref().map_or(f64::NAN, |k| k.value),
+                d_factor: s.d.as_ref().map_or(f64::NAN, |d| d.value),
             }
         })
         .collect();
@@ -376,7 +386,13 @@ pub fn report_data(r: &Results, tables: &BTreeMap<String, Table>) -> ReportData 
     .iter()
     .filter_map(|n| tables.get(*n).cloned())
     .collect();
+    let (ranked_hours, hourly_profiles) = counter_curves(r);
     ReportData {
+        markers: markers(r),
+        ranked_hours,
+        hourly_profiles,
+        qc_calendar: qc_calendar(r),
+        stations: tables.get("station_statistics").map(station_table),
         title: format!("Annual traffic statistics {}", r.year),
         study_year: r.year,
         generated_by: format!("roadtally {}", env!("CARGO_PKG_VERSION")),
@@ -412,6 +428,158 @@ pub fn report_data(r: &Results, tables: &BTreeMap<String, Table>) -> ReportData 
         ],
         caution: CAUTION.into(),
     }
+}
+
+/// Every station as a map marker at the middle of its segment.
+fn markers(r: &Results) -> Vec<MapMarker> {
+    let net = &r.data.network;
+    r.data
+        .stations
+        .stations
+        .iter()
+        .map(|st| {
+            let seg = &net.segments[st.segment];
+            let (a, b) = (&net.nodes[seg.from], &net.nodes[seg.to]);
+            MapMarker {
+                id: st.id.as_str().to_string(),
+                segment_id: st.segment_id.as_str().to_string(),
+                at: ((a.lon + b.lon) / 2.0, (a.lat + b.lat) / 2.0),
+                continuous: st.kind == crate::model::StationKind::Continuous,
+            }
+        })
+        .collect()
+}
+
+/// Ranked-hour curves and weekday hourly profiles of the permanent counters, grouped by
+/// factor group in the groups' order.
+fn counter_curves(r: &Results) -> (Vec<GroupCurves>, Vec<GroupCurves>) {
+    let f = &r.factors;
+    let mut ranked: Vec<GroupCurves> = f
+        .groups
+        .iter()
+        .map(|g| GroupCurves {
+            group: g.name.clone(),
+            counters: Vec::new(),
+        })
+        .collect();
+    let mut profiles = ranked.clone();
+    for s in &r.continuous.stations {
+        let st = &r.data.stations.stations[s.station];
+        let g = f.segment_group[st.segment];
+        let name = st.id.as_str().to_string();
+        if let Some(d) = &s.design {
+            ranked[g].counters.push(Series {
+                name: name.clone(),
+                values: d
+                    .ranked_k
+                    .iter()
+                    .take(super::report::RANKS_SHOWN)
+                    .copied()
+                    .collect(),
+            });
+        }
+        if let Some(sh) = s.distribution.as_ref().and_then(|d| d.shares[0]) {
+            profiles[g].counters.push(Series {
+                name,
+                values: sh.to_vec(),
+            });
+        }
+    }
+    ranked.retain(|g| !g.counters.is_empty());
+    profiles.retain(|g| !g.counters.is_empty());
+    (ranked, profiles)
+}
+
+/// The QC calendar: per permanent counter with records in the study year, each day's status
+/// (the worse of its directions).
+fn qc_calendar(r: &Results) -> Vec<CalendarRow> {
+    use chrono::{Datelike, NaiveDate};
+    let Some(first) = NaiveDate::from_ymd_opt(r.year, 1, 1) else {
+        return Vec::new();
+    };
+    let ndays = if NaiveDate::from_ymd_opt(r.year, 2, 29).is_some() {
+        366
+    } else {
+        365
+    };
+    let mut flagged = std::collections::HashSet::new();
+    for f in &r.qc.findings {
+        if !r.qc.is_rejected(f.station, f.date, f.direction) {
+            flagged.insert((f.station, f.date, f.direction));
+        }
+    }
+    let mut rows = Vec::new();
+    for (si, st) in r.data.stations.stations.iter().enumerate() {
+        if st.kind != crate::model::StationKind::Continuous {
+            continue;
+        }
+        let Some(days) = r.data.counts.days.get(si) else {
+            continue;
+        };
+        let mut out = vec![DayStatus::Missing; ndays];
+        let mut any = false;
+        for (date, day) in days.range(first..) {
+            if date.year() != r.year {
+                break;
+            }
+            let mut status = DayStatus::Missing;
+            for d in crate::model::Direction::ALL {
+                if day.dir(d).is_none() {
+                    continue;
+                }
+                let s = if r.qc.is_rejected(si, *date, d) {
+                    DayStatus::Rejected
+                } else if flagged.contains(&(si, *date, d)) {
+                    DayStatus::Flagged
+                } else {
+                    DayStatus::Accepted
+                };
+                status = status.max(s);
+            }
+            any |= status != DayStatus::Missing;
+            out[date.ordinal0() as usize] = status;
+        }
+        if any {
+            rows.push(CalendarRow {
+                station: st.id.as_str().to_string(),
+                days: out,
+            });
+        }
+    }
+    rows
+}
+
+/// The report's station table: the two-way rows of `station_statistics.csv` and its key
+/// columns (stations.csv gives no station names; the id and its segment identify a counter).
+fn station_table(t: &Table) -> Table {
+    const KEEP: [&str; 12] = [
+        "station_id",
+        "segment_id",
+        "factor_group",
+        "sufficiency",
+        "days_used",
+        "aadt_aashto",
+        "aadt_lo95",
+        "aadt_hi95",
+        "k30",
+        "d30",
+        "peak_hour_factor",
+        "heavy_share",
+    ];
+    let idx: Vec<usize> = KEEP.iter().filter_map(|n| t.column(n)).collect();
+    let mut out = Table::new(
+        "station_statistics",
+        "Permanent counters: days accepted, AADT with its 95 % interval and design-hour figures",
+        idx.iter().map(|&i| t.columns[i].clone()).collect(),
+    );
+    let dir = t.column("direction");
+    for row in &t.rows {
+        if dir.is_some_and(|d| !matches!(&row[d], Cell::Text(s) if s == "both")) {
+            continue;
+        }
+        out.push(idx.iter().map(|&i| row[i].clone()).collect());
+    }
+    out
 }
 
 /// `run_manifest.json`: tool version, settings, each input file's checksum and row tally, and

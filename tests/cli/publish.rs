@@ -211,7 +211,19 @@ fn report_escapes_text_from_the_inputs() {
         String::from_utf8_lossy(&out.stderr)
     );
     let html = std::fs::read_to_string(s.out().join("report.html")).unwrap();
-    assert!(!html.contains("<script"), "no raw script tag");
+    // Only the report's own two script elements (its JSON data block and its script); the
+    // input text inside the data block has every `<` written `\u003c`.
+    assert_eq!(
+        html.matches("<script").count(),
+        2,
+        "no script from the inputs"
+    );
+    let data = &html[html.find("application/json\">").unwrap()..];
+    let data = &data[..data.find("</script>").unwrap()];
+    assert!(
+        data.contains("\\u003cscript>alert(1)\\u003c/script>"),
+        "{data}"
+    );
     assert!(html.contains("&lt;script&gt;"), "escaped text present");
     assert!(
         !html.contains("src=\"http") && !html.contains("href=\"http"),
@@ -440,4 +452,149 @@ fn the_workbook_prints_landscape_in_libreoffice_when_installed() {
         String::from_utf8_lossy(&o.stderr)
     );
     assert!(text.contains("0 in portrait"), "{text}");
+}
+
+/// The JSON data block of a report page (`<script id="report-data" type="application/json">`).
+fn report_json(html: &str) -> serde_json::Value {
+    let tag = "<script id=\"report-data\" type=\"application/json\">";
+    let i = html.find(tag).expect("data block") + tag.len();
+    let j = i + html[i..].find("</script>").expect("data block closes");
+    serde_json::from_str(&html[i..j]).expect("the data block is JSON")
+}
+
+/// `12,345` as the report writes volumes.
+fn with_commas(v: i64) -> String {
+    let d = v.abs().to_string();
+    let mut out = String::new();
+    for (i, ch) in d.chars().enumerate() {
+        if i > 0 && (d.len() - i) % 3 == 0 {
+            out.push(',');
+        }
+        out.push(ch);
+    }
+    if v < 0 {
+        format!("-{out}")
+    } else {
+        out
+    }
+}
+
+/// The report's embedded segment data parses as JSON and carries, for every segment of
+/// `segment_statistics.csv`, the same AADT, 95 % interval, basis and route as the CSV (the
+/// page is a view of the published table, not a second computation).
+#[test]
+fn the_report_embeds_the_segment_figures_of_the_csv() {
+    let out = tempfile::tempdir().unwrap();
+    run_demo(out.path());
+    let html = std::fs::read_to_string(out.path().join("report.html")).unwrap();
+    let doc = report_json(&html);
+    let cols: Vec<&str> = doc["columns"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|c| c.as_str().unwrap())
+        .collect();
+    let at = |name: &str| cols.iter().position(|c| *c == name).unwrap();
+    let by_id: HashMap<String, &serde_json::Value> = doc["segments"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|r| (r[at("segment_id")].as_str().unwrap().to_string(), r))
+        .collect();
+    let csv = csv_rows(&out.path().join("segment_statistics.csv"));
+    let ci = |name: &str| csv[0].iter().position(|c| c == name).unwrap();
+    assert_eq!(by_id.len(), csv.len() - 1, "one JSON row per CSV row");
+    for r in &csv[1..] {
+        let j = by_id[&r[ci("segment_id")]];
+        for name in ["aadt", "aadt_lo95", "aadt_hi95"] {
+            assert_eq!(
+                j[at(name)]
+                    .as_i64()
+                    .map(|v| v.to_string())
+                    .unwrap_or_default(),
+                r[ci(name)],
+                "{name} of {}",
+                r[0]
+            );
+        }
+        assert_eq!(j[at("basis")], r[ci("basis")].as_str());
+        assert_eq!(j[at("route")], r[ci("route")].as_str());
+    }
+    assert!(
+        doc["markers"].as_array().unwrap().len() > 10,
+        "count locations"
+    );
+}
+
+/// A headless browser to render the report with: `ROADTALLY_BROWSER`, else the first of
+/// `chromium`, `chromium-browser`, `google-chrome` on PATH.
+fn headless_browser() -> Option<String> {
+    if let Ok(b) = std::env::var("ROADTALLY_BROWSER") {
+        if !b.is_empty() {
+            return Some(b);
+        }
+    }
+    ["chromium", "chromium-browser", "google-chrome"]
+        .into_iter()
+        .find(|b| {
+            std::process::Command::new("sh")
+                .args(["-c", &format!("command -v {b}")])
+                .output()
+                .is_ok_and(|o| o.status.success())
+        })
+        .map(String::from)
+}
+
+/// The report rendered in a real headless browser: the URL fragment `#find=S00012` runs the
+/// map's search, and the info panel then shows that segment's AADT and 95 % interval exactly
+/// as `segment_statistics.csv` gives them. Skipped with a message when no browser is found.
+#[test]
+fn the_map_finds_a_segment_in_a_headless_browser_when_installed() {
+    let Some(browser) = headless_browser() else {
+        eprintln!("skipped: no headless browser (set ROADTALLY_BROWSER or put chromium on PATH)");
+        return;
+    };
+    let out = tempfile::tempdir().unwrap();
+    run_demo(out.path());
+    let csv = csv_rows(&out.path().join("segment_statistics.csv"));
+    let ci = |name: &str| csv[0].iter().position(|c| c == name).unwrap();
+    let row = csv[1..].iter().find(|r| r[0] == "S00012").expect("S00012");
+    let v = |name: &str| with_commas(row[ci(name)].parse().unwrap());
+    let profile = tempfile::tempdir().unwrap();
+    let url = format!(
+        "file://{}#find=S00012",
+        out.path().join("report.html").display()
+    );
+    let o = std::process::Command::new(&browser)
+        .args([
+            "--headless",
+            "--disable-gpu",
+            "--no-sandbox",
+            "--virtual-time-budget=5000",
+        ])
+        .arg(format!("--user-data-dir={}", profile.path().display()))
+        .args(["--dump-dom", &url])
+        .output()
+        .expect("browser runs");
+    let dom = String::from_utf8_lossy(&o.stdout);
+    let i = dom.find("id=\"map-info\"").unwrap_or_else(|| {
+        panic!(
+            "{browser} gave no page: {}",
+            String::from_utf8_lossy(&o.stderr)
+        )
+    });
+    let panel = &dom[i..i + dom[i..].find("</dl>").expect("the panel shows figures")];
+    assert!(panel.contains("Segment S00012"), "{panel}");
+    assert!(
+        panel.contains(&format!("data-f=\"aadt\">{} veh/day<", v("aadt"))),
+        "{panel}"
+    );
+    assert!(
+        panel.contains(&format!(
+            "data-f=\"interval\">{} – {} veh/day<",
+            v("aadt_lo95"),
+            v("aadt_hi95")
+        )),
+        "{panel}"
+    );
 }

@@ -7,9 +7,25 @@ use crate::output::table::Table;
 /// table is in its CSV file.
 pub const TABLE_ROWS_MAX: usize = 100;
 
-/// One segment on the report's map.
-#[derive(Debug, Clone, PartialEq)]
+/// One segment on the report's map, with the figures its info panel and table row show.
+#[derive(Debug, Clone, PartialEq, Default)]
 pub struct MapSegment {
+    /// Segment id.
+    pub id: String,
+    /// Route name, empty when the network gives none.
+    pub route: String,
+    /// Functional class code (1 interstate ... 7 local) and area, e.g. `3 urban`.
+    pub class: String,
+    /// Factor group.
+    pub group: String,
+    /// Length, km.
+    pub length_km: f64,
+    /// Heavy-vehicle share of AADT (0-1), NaN when the study has none.
+    pub heavy_share: f64,
+    /// K-factor (design-hour share of AADT), NaN when none.
+    pub k_factor: f64,
+    /// D-factor (heavier direction's share of the design hour), NaN when none.
+    pub d_factor: f64,
     /// From node, (lon, lat) decimal degrees WGS 84.
     pub from: (f64, f64),
     /// To node, (lon, lat) decimal degrees WGS 84.
@@ -24,6 +40,54 @@ pub struct MapSegment {
     pub basis: String,
     /// Tooltip label, e.g. the segment id and route.
     pub label: String,
+}
+
+/// A count location drawn on the map: a permanent counter or a short-count station, placed
+/// at the middle of its segment (stations.csv gives the segment, not coordinates).
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct MapMarker {
+    /// Station id.
+    pub id: String,
+    /// Segment id it stands on.
+    pub segment_id: String,
+    /// (lon, lat) decimal degrees WGS 84.
+    pub at: (f64, f64),
+    /// `true` for a permanent counter, `false` for a short-count station.
+    pub continuous: bool,
+}
+
+/// How quality control treated one station-day (both directions together: the worst of
+/// them).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Default)]
+pub enum DayStatus {
+    /// No record on that day.
+    #[default]
+    Missing,
+    /// Accepted without a flag.
+    Accepted,
+    /// Accepted with a flag.
+    Flagged,
+    /// Rejected (in at least one direction).
+    Rejected,
+}
+
+/// One station's row of the QC calendar: a status per day of the study year, 1 January first.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct CalendarRow {
+    /// Station id.
+    pub station: String,
+    /// One status per day of the year.
+    pub days: Vec<DayStatus>,
+}
+
+/// Curves of one factor group, one per counter: hourly profiles (each counter's weekday share of
+/// daily volume per clock hour, 24 values, 0-1) or ranked-hour K-values (highest first).
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct GroupCurves {
+    /// Factor group name.
+    pub group: String,
+    /// The counters' profiles, named by station id.
+    pub counters: Vec<Series>,
 }
 
 /// A named series of values, e.g. the 12 monthly factors of one factor group.
@@ -48,6 +112,16 @@ pub struct ReportData {
     pub summary: Vec<(String, String)>,
     /// Segments to map.
     pub map: Vec<MapSegment>,
+    /// Permanent counters and short-count stations on the map.
+    pub markers: Vec<MapMarker>,
+    /// Ranked-hour curves per factor group: per counter, the K-values of its highest hours.
+    pub ranked_hours: Vec<GroupCurves>,
+    /// Weekday hourly profiles per factor group and counter.
+    pub hourly_profiles: Vec<GroupCurves>,
+    /// The QC calendar, one row per station with counts in the study year.
+    pub qc_calendar: Vec<CalendarRow>,
+    /// The permanent-counter table (two-way rows of `station_statistics.csv`, key columns).
+    pub stations: Option<Table>,
     /// Monthly factors per factor group (12 values, January first).
     pub monthly_factors: Vec<Series>,
     /// Weekday factors per factor group (7 values, Monday first).

@@ -1,38 +1,57 @@
 //! HTML report writer: one self-contained page that a road agency can publish, mail or print.
 //!
 //! The page holds, in order: the caution, the key facts, the network totals, a network map
-//! coloured by AADT whose line opacity (and a second panel) shows the width of each 95 %
-//! interval, monthly and weekday factor charts per factor group, the short-count calibration
-//! and cross-validation results as bar charts and tables, the quality-control summary
-//! (direction-days accepted without a flag, flagged and rejected per station, as in
-//! `qc_summary.csv`), further tables, and the method and caution text. Chart titles stand above
-//! their charts, in plain words with units.
+//! coloured by AADT (seven round-number classes) whose line opacity (and a second panel)
+//! shows the width of each 95 % interval, with permanent counters, short-count stations and
+//! a scale bar; the per-segment table; the permanent counters (station table, ranked-hour
+//! curves, hourly profiles); monthly and weekday factor charts per factor group; the
+//! short-count calibration and cross-validation results as bar charts and tables; quality
+//! control (a station-by-day calendar, direction-days accepted without a flag, flagged and
+//! rejected per station, as in `qc_summary.csv`); further tables; and the method and caution
+//! text. Chart titles stand above their charts, in plain words with units.
 //!
 //! # Self-contained and safe
-//! The file needs nothing but a browser: CSS is inline, charts are inline SVG
-//! ([`svg`]), and there are no scripts, external links, fonts or images, so it works
-//! offline and archived copies never change. Every text taken from the inputs (station names,
-//! labels, table cells) is HTML-escaped by the maud templates, so a name like
-//! `<script>alert(1)</script>` is shown, never run.
+//! The file needs nothing but a browser: CSS is inline, charts are inline SVG ([`svg`],
+//! [`map`]), and the only script is our own (`report.js`, no library) with its data in a
+//! `<script type="application/json">` block ([`interactive`]); there are no external links,
+//! fonts, images or network requests, so it works offline and archived copies never change.
+//! Without the script every chart and the first rows of each table still show (print,
+//! archives); the script adds zoom, pan, search and an info panel to the map and paging,
+//! filtering and sorting to the segment table. Every text taken from the inputs (station
+//! names, labels, table cells) is HTML-escaped by the maud templates, so a name like
+//! `<script>alert(1)</script>` is shown, never run; inside the data block every `<` is
+//! written `\u003c`, so input text can neither close the block nor open a comment, and the
+//! script writes text only through `textContent`.
 //!
 //! # Layout and print
-//! One direction inside: [`data`] (what the report shows) -> [`svg`] (charts drawn from it)
-//! and `charts.rs` (which result columns become bar charts) -> `page.rs` (the layout) ->
-//! this module (render and write). The stylesheet is `report/report.css`. The page reads at laptop width and has a print stylesheet for A4 and
-//! Letter (15 mm margins, charts and table rows kept whole, table headers repeated).
+//! One direction inside: [`data`] (what the report shows) -> [`svg`], [`map`], `curves.rs`
+//! and `calendar.rs` (charts drawn from it) and `charts.rs` (which result columns become bar
+//! charts) -> `page.rs` (the layout) -> this module (render and write). The stylesheet is
+//! `report/report.css`. The page reads at laptop width and has a print stylesheet for A4 and
+//! Letter (15 mm margins, charts and table rows kept whole, table headers repeated and never
+//! broken letter by letter, the interactive controls hidden).
 //!
 //! # Determinism
 //! The page states the tool version, not the time it was made, and numbers are printed with
 //! fixed decimals, so identical inputs give a byte-identical file.
 
+mod calendar;
 mod charts;
+mod curves;
 pub mod data;
+pub mod interactive;
+pub mod map;
 mod page;
 pub mod svg;
 
 use std::path::{Path, PathBuf};
 
-pub use data::{Bar, MapSegment, QcRow, ReportData, Series, TABLE_ROWS_MAX};
+pub use data::{
+    Bar, CalendarRow, DayStatus, GroupCurves, MapMarker, MapSegment, QcRow, ReportData, Series,
+    TABLE_ROWS_MAX,
+};
+
+pub use curves::RANKS_SHOWN;
 
 use super::{write_atomic, OutputError};
 
@@ -136,6 +155,9 @@ mod tests {
                     hi95: 14000.0,
                     basis: "continuous".into(),
                     label: EVIL.into(),
+                    id: EVIL.into(),
+                    route: "</script><!--".into(),
+                    ..MapSegment::default()
                 },
                 MapSegment {
                     from: (-73.98, 40.76),
@@ -145,6 +167,8 @@ mod tests {
                     hi95: 1800.0,
                     basis: "estimated".into(),
                     label: "s2".into(),
+                    id: "s2".into(),
+                    ..MapSegment::default()
                 },
             ],
             monthly_factors: vec![Series {
@@ -162,6 +186,13 @@ mod tests {
             extra_tables: vec![extra],
             methods: vec![("Expansion".into(), "Short counts are expanded.".into())],
             caution: "Figures are estimates with stated uncertainty; design follows local codes and a licensed engineer's judgement.".into(),
+            markers: vec![MapMarker {
+                id: EVIL.into(),
+                segment_id: "s2".into(),
+                at: (-73.97, 40.77),
+                continuous: true,
+            }],
+            ..ReportData::default()
         }
     }
 
@@ -170,7 +201,13 @@ mod tests {
         let html = render_report(&data());
         assert!(html.starts_with("<!DOCTYPE html>"));
         assert!(html.contains("&lt;script&gt;alert(1)&lt;/script&gt;"));
-        assert!(!html.to_ascii_lowercase().contains("<script"));
+        // Exactly our two script elements: the JSON data block and our script; input text
+        // (a segment id and route holding `</script><!--`) stays inside the data block.
+        let lower = html.to_ascii_lowercase();
+        assert_eq!(lower.matches("<script").count(), 2);
+        assert_eq!(lower.matches("</script").count(), 2);
+        assert!(!html.contains("<!--"));
+        assert!(html.contains("<script id=\"report-data\" type=\"application/json\">"));
         assert!(!html.contains("src="));
         assert!(!html.contains("href=\"http"));
         assert!(!html.contains("http://"));
@@ -185,7 +222,7 @@ mod tests {
     /// Checks that every element opened is closed in order (void elements excepted) and that
     /// only expected elements occur: escaped input text can never open a tag.
     fn assert_well_formed(html: &str) {
-        const VOID: [&str; 2] = ["meta", "!DOCTYPE"];
+        const VOID: [&str; 3] = ["meta", "!DOCTYPE", "input"];
         const ALLOWED: &[&str] = &[
             "html",
             "head",
@@ -226,6 +263,11 @@ mod tests {
             "th",
             "td",
             "footer",
+            "g",
+            "form",
+            "label",
+            "button",
+            "script",
         ];
         let mut stack: Vec<String> = Vec::new();
         let mut rest = html;
@@ -256,9 +298,12 @@ mod tests {
             } else {
                 stack.push(name.clone());
             }
-            if name == "style" && !closing {
-                // CSS is ours and holds no tags; skip to its end.
-                let j = rest.find("</style>").expect("style closes");
+            if (name == "style" || name == "script") && !closing {
+                // CSS and script are ours, the data block is escaped JSON: none holds a
+                // closing tag before its own; skip to its end.
+                let close = format!("</{name}>");
+                let j = rest.find(&close).expect("style or script closes");
+                assert!(!rest[..j].contains("</"), "nothing inside closes a tag");
                 rest = &rest[j..];
             }
         }

@@ -5,8 +5,8 @@
 use maud::{html, Markup, PreEscaped, DOCTYPE};
 
 use super::charts::{metric_charts, qc_chart};
-use super::data::{ReportData, TABLE_ROWS_MAX};
-use super::svg;
+use super::data::{MapSegment, ReportData, TABLE_ROWS_MAX};
+use super::{calendar, curves, interactive, map, svg};
 use crate::output::table::{cell_text, Cell, Format, Table};
 
 /// The stylesheet, inlined so the page needs no other file.
@@ -58,7 +58,33 @@ pub(super) fn page(d: &ReportData) -> Markup {
                 }
                 section id="map" {
                     h2 { "Network map" }
-                    (svg::network_map(&d.map))
+                    (map::network_map(&d.map, &d.markers))
+                }
+                @if !d.map.is_empty() {
+                    section id="segments" {
+                        h2 { "Segments" }
+                        (segment_table(&d.map))
+                    }
+                }
+                @if d.stations.is_some() || !d.ranked_hours.is_empty() || !d.hourly_profiles.is_empty() {
+                    section id="counters" {
+                        h2 { "Permanent counters" }
+                        @if let Some(t) = &d.stations {
+                            (table(t))
+                        }
+                        h3 { "Ranked-hour curves" }
+                        p.note {
+                            "Each line is one counter: its busiest two-way hours of the year, highest first, "
+                            "as a share of its AADT. The 30th-highest hour gives K30; the full curves are in ranked_hours.csv."
+                        }
+                        (curves::ranked_hour_panels(&d.ranked_hours))
+                        h3 { "Hourly profiles" }
+                        p.note {
+                            "Each thin line is one counter's mean working-day (Monday–Friday) profile; the bold line is "
+                            "the group's mean. Saturday and Sunday profiles are in hourly_distribution.csv."
+                        }
+                        (curves::hourly_profile_panels(&d.hourly_profiles))
+                    }
                 }
                 section id="factors" {
                     h2 { "Monthly and weekday factors" }
@@ -86,6 +112,7 @@ pub(super) fn page(d: &ReportData) -> Markup {
                 @if let Some(t) = &d.qc_summary {
                     section id="qc" {
                         h2 { "Quality control" }
+                        (calendar::qc_calendar(&d.qc_calendar, d.study_year))
                         @if let Some((title, rows)) = qc_chart(t) {
                             (svg::qc_bars(&title, &rows))
                         }
@@ -113,6 +140,7 @@ pub(super) fn page(d: &ReportData) -> Markup {
                     "Produced by " (d.generated_by) " for study year " (d.study_year)
                     ". Every figure is an estimate; see the 95 % intervals and the caution above."
                 }
+                (interactive::scripts(&d.map, &d.markers))
             }
         }
     }
@@ -128,6 +156,12 @@ fn contents(d: &ReportData) -> Vec<(&'static str, &'static str)> {
         s.push(("totals", "Network totals"));
     }
     s.push(("map", "Network map"));
+    if !d.map.is_empty() {
+        s.push(("segments", "Segments"));
+    }
+    if d.stations.is_some() || !d.ranked_hours.is_empty() || !d.hourly_profiles.is_empty() {
+        s.push(("counters", "Permanent counters"));
+    }
     s.push(("factors", "Monthly and weekday factors"));
     if d.calibration.is_some() {
         s.push(("calibration", "Short-count calibration"));
@@ -173,6 +207,102 @@ fn results(t: &Table) -> Markup {
             (svg::bar_chart(&chart.title, &chart.bars, &chart.unit, chart.reference))
         }
         (table(t))
+    }
+}
+
+/// The segment table's columns: embedded-data key (for sorting), heading, unit, numeric.
+const SEGMENT_COLUMNS: [(&str, &str, &str, bool); 11] = [
+    ("segment_id", "Segment", "", false),
+    ("route", "Route", "", false),
+    ("class", "Class", "functional class, area", false),
+    ("group", "Factor group", "", false),
+    ("basis", "Basis", "", false),
+    ("aadt", "AADT", "veh/day", true),
+    ("aadt_lo95", "95 % interval", "veh/day", true),
+    ("heavy_pct", "Heavy vehicles", "% of AADT", true),
+    ("k_factor", "K-factor", "design hour ÷ AADT", true),
+    ("d_factor", "D-factor", "heavier direction's share", true),
+    ("length_km", "Length", "km", true),
+];
+
+/// One segment's cells as the table shows them (the script writes the same text).
+fn segment_cells(s: &MapSegment) -> [String; 11] {
+    let or_dash = |t: &str| {
+        if t.is_empty() {
+            "–".to_string()
+        } else {
+            t.to_string()
+        }
+    };
+    let fixed = |v: f64, d: usize| {
+        if v.is_finite() {
+            format!("{v:.d$}")
+        } else {
+            "–".to_string()
+        }
+    };
+    let interval = if s.lo95.is_finite() && s.hi95.is_finite() {
+        format!("{} – {}", svg::thousands(s.lo95), svg::thousands(s.hi95))
+    } else {
+        "–".to_string()
+    };
+    [
+        s.id.clone(),
+        or_dash(&s.route),
+        or_dash(&s.class),
+        or_dash(&s.group),
+        s.basis.clone(),
+        svg::thousands(s.aadt),
+        interval,
+        fixed(100.0 * s.heavy_share, 1),
+        fixed(s.k_factor, 4),
+        fixed(s.d_factor, 3),
+        fixed(s.length_km, 3),
+    ]
+}
+
+/// The per-segment table: the first [`TABLE_ROWS_MAX`] rows without scripts; with them, the
+/// script pages, filters and sorts every segment from the embedded data.
+fn segment_table(segs: &[MapSegment]) -> Markup {
+    html! {
+        div.table-tools.interactive hidden {
+            label for="seg-filter" { "Filter " }
+            input #seg-filter type="search" placeholder="segment id, route, class, group or basis" autocomplete="off";
+            button #seg-prev type="button" { "← previous" }
+            button #seg-next type="button" { "next →" }
+            span #seg-status aria-live="polite" {}
+            span.note { " Click a heading to sort, a row to show it on the map." }
+        }
+        div.table-wrap {
+            table #seg-table .segments {
+                caption { "AADT with its 95 % interval and the main figures per segment" }
+                thead {
+                    tr {
+                        @for (key, name, unit, numeric) in SEGMENT_COLUMNS {
+                            th.num[numeric] data-key=(key) {
+                                (name)
+                                @if !unit.is_empty() { span.unit { (unit) } }
+                            }
+                        }
+                    }
+                }
+                tbody {
+                    @for s in &segs[..segs.len().min(TABLE_ROWS_MAX)] {
+                        tr {
+                            @for (text, (_, _, _, numeric)) in segment_cells(s).iter().zip(SEGMENT_COLUMNS) {
+                                td.num[numeric] { (text) }
+                            }
+                        }
+                    }
+                }
+            }
+        }
+        @if segs.len() > TABLE_ROWS_MAX {
+            p.note #seg-static-note {
+                "Showing the first " (TABLE_ROWS_MAX) " of " (segs.len())
+                " segments; the full table is in segment_statistics.csv."
+            }
+        }
     }
 }
 
