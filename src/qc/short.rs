@@ -802,6 +802,16 @@ pub(crate) fn check(
                 break;
             }
         }
+        // A holiday or a travel day around one has its own peaks (an early exodus, a late
+        // return) that no reference day type holds: a spike there is flagged, as any other
+        // unusual level on such a day (zero and flat runs are no traffic pattern and reject).
+        let holiday = st.calendar.holiday(*date);
+        if let Some(h) = holiday {
+            for x in v.iter_mut().filter(|x| x.0 == QcRule::Spike) {
+                x.1 = QcAction::Flagged;
+                x.2 = format!("{}; {h} (holiday list)", x.2);
+            }
+        }
         if v.is_empty() {
             if let Some(step) = rules::level_step(s, &prof, pr.level_shift_min_side_hours, pr) {
                 // Another road's shape can step where this road's does not: the step must
@@ -816,7 +826,6 @@ pub(crate) fn check(
                     None => step.z >= p.level_shift_min_z,
                 };
                 // A holiday's level is its own (as on permanent counters): flagged.
-                let holiday = st.calendar.holiday(*date);
                 let structural = confirmed
                     && step.off_share() >= p.level_shift_min_off_share
                     && holiday.is_none();
