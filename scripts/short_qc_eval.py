@@ -11,6 +11,7 @@ Prints, for short counts only:
              and flagged (a flag does not keep a day out of expansion);
   disturbed  the clean ones on a day of truth/disturbed_days.csv, share rejected;
   unexpanded short counts with status other than `expanded` in short_counts.csv.
+Also the catch rate on faulty direction-days of at least 500 counted vehicles.
 With --misses, lists the faults missed and the clean days rejected.
 """
 
@@ -28,10 +29,13 @@ def main():
     study, out = sys.argv[1], sys.argv[2]
     misses = "--misses" in sys.argv
     short = {s["station_id"] for s in rows(f"{study}/stations.csv") if s["kind"] == "short"}
-    hours = defaultdict(int)  # (station, dir, date) -> counted hours
+    hours = defaultdict(int)  # (station, dir, date) -> counted minutes
+    volume = defaultdict(float)  # (station, dir, date) -> vehicles (axle hits / 2)
     for r in rows(f"{study}/counts/short_counts.csv"):
         if r["vehicles"] or r["axles"]:
-            hours[(r["station_id"], r["direction"], r["start"][:10])] += int(r["minutes"])
+            key = (r["station_id"], r["direction"], r["start"][:10])
+            hours[key] += int(r["minutes"])
+            volume[key] += float(r["vehicles"]) if r["vehicles"] else float(r["axles"]) / 2
     faults = {
         (f["station_id"], f["direction"], f["date"]): f
         for f in rows(f"{study}/truth/faults.csv")
@@ -71,10 +75,18 @@ def main():
         f"unexpanded {pct(len(unexp), len(counts)):.1f} % ({len(unexp)}/{len(counts)})"
     )
     print("  by kind: " + ", ".join(f"{k} {c}/{n}" for k, (n, c) in sorted(by_kind.items())))
+    big = [k for k in faults if volume[k] >= 500]
+    print(
+        f"  catch on direction-days of at least 500 counted vehicles: "
+        f"{pct(sum(k in found for k in big), len(big)):.1f} % ({sum(k in found for k in big)}/{len(big)})"
+    )
     if misses:
         for k, f in sorted(faults.items()):
             if k not in found:
-                print(f"  missed {k} {f['fault']} {f['detail']} ({hours.get(k, 0) // 60} h)")
+                print(
+                    f"  missed {k} {f['fault']} {f['detail']} "
+                    f"({hours.get(k, 0) // 60} h, {volume[k]:.0f} veh)"
+                )
         for k in sorted(clean_rej):
             why = [q["rule"] for q in found[k] if q["action"] == "rejected"]
             print(f"  rejected clean {k} {why} {disturbed.get((k[0], k[2]), [])}")
