@@ -158,8 +158,9 @@ pub struct QcParams {
     /// days of its kind for a flag when the reference shows none. Default 2.5 (a flag only:
     /// with two days either may be the odd one).
     pub short_own_days_min_z: f64,
-    /// Short counts: a complete day whose total differs from the median of the count's other
-    /// complete days of its kind (working or weekend) by more than this share is flagged
+    /// Short counts: a day (complete or partial) whose total over its hours differs from the
+    /// mean of the count's other days of its kind (working or weekend) at the same clock
+    /// hours by more than this share, and by three Poisson standard deviations, is flagged
     /// (`count_days`). Default 0.30 (common practice; consecutive working days of one road
     /// differ by well under a fifth).
     pub short_day_max_change: f64,

@@ -188,17 +188,20 @@ pub(crate) struct ShortStation<'a> {
     pub calendar: &'a super::calendar::HolidayCalendar,
 }
 
-/// A direction-day of a short count on its longest run of covered hours.
+/// A direction-day of a short count on one run of covered hours.
 struct Run {
     s: DaySeries,
     /// Whether the run covers the whole local day.
     complete: bool,
 }
 
-/// The longest run of fully covered hours of a direction-day, as a series of its own.
-/// Axle hits are halved (see the module docs).
-fn covered_run(day: &DayCounts, d: Direction, min_hours: usize) -> Option<Run> {
-    let dd = day.dir(d)?;
+/// Every run of at least `min_hours` fully covered hours of a direction-day, each as a
+/// series of its own, longest first (the first of equal ones first). A missed hour splits a
+/// day in two, and a fault may sit in either part. Axle hits are halved (see the module docs).
+fn covered_runs(day: &DayCounts, d: Direction, min_hours: usize) -> Vec<Run> {
+    let Some(dd) = day.dir(d) else {
+        return Vec::new();
+    };
     let s = series(day, dd);
     let quarters = match s.measure {
         Measure::Vehicles => dd.vehicle_quarters,
@@ -209,7 +212,8 @@ fn covered_run(day: &DayCounts, d: Direction, min_hours: usize) -> Option<Run> {
         let m = hour_mask(start + k);
         quarters & m == m
     };
-    let (mut best, mut k) = ((0, 0), 0);
+    let mut spans = Vec::new();
+    let mut k = 0;
     while k < s.values.len() {
         if !full(k) {
             k += 1;
@@ -219,29 +223,29 @@ fn covered_run(day: &DayCounts, d: Direction, min_hours: usize) -> Option<Run> {
         while k < s.values.len() && full(k) {
             k += 1;
         }
-        if k - a > best.1 - best.0 {
-            best = (a, k);
+        if k - a >= min_hours.max(1) {
+            spans.push((a, k));
         }
     }
-    let (a, b) = best;
-    if b - a < min_hours.max(1) {
-        return None;
-    }
+    spans.sort_by_key(|&(a, b)| std::cmp::Reverse(b - a));
     let halve = if s.measure == Measure::Axles {
         0.5
     } else {
         1.0
     };
-    Some(Run {
-        complete: a == 0 && b == s.values.len(),
-        s: DaySeries {
-            date: s.date,
-            measure: s.measure,
-            values: s.values[a..b].iter().map(|v| v * halve).collect(),
-            hours: s.hours[a..b].to_vec(),
-            coverage: 1.0,
-        },
-    })
+    spans
+        .into_iter()
+        .map(|(a, b)| Run {
+            complete: a == 0 && b == s.values.len(),
+            s: DaySeries {
+                date: s.date,
+                measure: s.measure,
+                values: s.values[a..b].iter().map(|v| v * halve).collect(),
+                hours: s.hours[a..b].to_vec(),
+                coverage: 1.0,
+            },
+        })
+        .collect()
 }
 
 fn is_working(date: NaiveDate) -> bool {
@@ -524,6 +528,55 @@ fn own_days_step(
     )
 }
 
+/// A direction-day's total against the mean of the count's other accepted days of its kind
+/// (working or weekend) over the clock hours both have.
+struct SameHours {
+    total: f64,
+    typical: f64,
+    hours: usize,
+    days: usize,
+}
+
+fn same_hours(
+    runs: &BTreeMap<(Direction, NaiveDate), Run>,
+    rejected: &HashSet<(Direction, NaiveDate)>,
+    d: Direction,
+    date: NaiveDate,
+) -> Option<SameHours> {
+    let s = &runs.get(&(d, date))?.s;
+    let mut sum = [0.0f64; 24];
+    let mut n = [0usize; 24];
+    let mut days = 0;
+    for ((dd, dt), o) in runs {
+        if *dd != d
+            || *dt == date
+            || is_working(*dt) != is_working(date)
+            || rejected.contains(&(*dd, *dt))
+        {
+            continue;
+        }
+        days += 1;
+        for (v, &h) in o.s.values.iter().zip(&o.s.hours) {
+            sum[h] += v;
+            n[h] += 1;
+        }
+    }
+    let (mut total, mut typical, mut hours) = (0.0, 0.0, 0);
+    for (v, &h) in s.values.iter().zip(&s.hours) {
+        if n[h] > 0 {
+            total += v;
+            typical += sum[h] / n[h] as f64;
+            hours += 1;
+        }
+    }
+    (days > 0).then_some(SameHours {
+        total,
+        typical,
+        hours,
+        days,
+    })
+}
+
 /// Swapped directions (fault: the two tubes' or loops' channels crossed for a day): a
 /// working day's fwd share, clock hour by clock hour, fits the count's other working days
 /// with fwd and rev exchanged much better than as recorded. Returns the detail per date.
@@ -566,27 +619,28 @@ fn swapped(
             n += 1;
         }
         if n > 0 && same > swap * p.swap_min_misfit_ratio && same - swap > p.swap_min_misfit_gain {
-            // The count's own orientation is that of the majority of its hours: the day is
-            // rejected when the other days hold more hours, flagged on a tie (two days of
-            // equal length: either may be the swapped one), left alone when it is the
-            // majority (the others are then the odd ones).
+            // The count's own orientation is that of a clear majority of its hours: the day
+            // is rejected when the other days hold at least twice its hours (a 72-hour count
+            // with one odd day, a 12-hour partial day against a full one), else flagged (two
+            // days of about equal length, or the day is the longer one: either may be the
+            // swapped one, and the data do not say which).
             let own = f.hours.len();
             let others: usize = pairs
                 .iter()
                 .filter(|x| x.0 != date)
                 .map(|x| x.1.hours.len())
                 .sum();
-            let action = match others.cmp(&own) {
-                std::cmp::Ordering::Greater => QcAction::Rejected,
-                std::cmp::Ordering::Equal => QcAction::Flagged,
-                std::cmp::Ordering::Less => continue,
+            let action = if others >= 2 * own {
+                QcAction::Rejected
+            } else {
+                QcAction::Flagged
             };
             out.push((
                 date,
                 action,
                 format!(
                     "fwd share by hour fits the count's other working days ({others} h) with fwd and rev exchanged: misfit {same:.0} as recorded, {swap:.0} exchanged (chi-square over {n} hours){}",
-                    if action == QcAction::Flagged { "; the other day is as long, so either may be the swapped one" } else { "" }
+                    if action == QcAction::Flagged { "; the other days do not hold twice its hours, so either may be the swapped one" } else { "" }
                 ),
             ));
         }
@@ -613,11 +667,17 @@ pub(crate) fn check(
             detail,
         })
     };
+    // The longest run of each direction-day carries the day in the rules that compare days
+    // and directions; the shorter runs (a day split by missed hours) are tested for zero
+    // runs, spikes and flat runs against the same reference.
     let mut runs: BTreeMap<(Direction, NaiveDate), Run> = BTreeMap::new();
+    let mut shorter: BTreeMap<(Direction, NaiveDate), Vec<Run>> = BTreeMap::new();
     for (date, day) in st.days {
         for d in Direction::ALL {
-            if let Some(run) = covered_run(day, d, p.short_min_hours) {
+            let mut all = covered_runs(day, d, p.short_min_hours).into_iter();
+            if let Some(run) = all.next() {
                 runs.insert((d, *date), run);
+                shorter.insert((d, *date), all.collect());
             }
         }
     }
@@ -673,6 +733,7 @@ pub(crate) fn check(
             continue;
         }
         let s = &runs[&(*d, *date)].s;
+        let parts = shorter.get(&(*d, *date)).map_or(&[][..], |v| &v[..]);
         // Other days of the same direction and the other direction of the same day; the
         // day itself only when there is nothing else (it is the suspect).
         let mut est: Vec<f64> = levels
@@ -723,18 +784,33 @@ pub(crate) fn check(
         let prof = scaled(c.profile, level);
         let source = format!("reference {} {} {}", c.label, c.dir, c.profile.label);
         let mut v: Vec<(QcRule, QcAction, String)> = Vec::new();
-        if let Some(t) = rules::zero_run(s, Some(&prof), pr) {
-            v.push((QcRule::ZeroRun, QcAction::Rejected, t));
+        for s in std::iter::once(s).chain(parts.iter().map(|r| &r.s)) {
+            if let Some(t) = rules::zero_run(s, Some(&prof), pr) {
+                v.push((QcRule::ZeroRun, QcAction::Rejected, t));
+            }
+            if let Some(t) = rules::spike(s, Some(&prof), (None, None), pr)
+                .or_else(|| outside.then(|| spike_at_level(s, &prof, pr)).flatten())
+            {
+                v.push((QcRule::Spike, QcAction::Rejected, t));
+            }
+            let e = prof.expected(s);
+            let sc = rules::day_scale(s, &e);
+            if let Some(t) = rules::flat_run(s, Some((&e, sc)), pr) {
+                v.push((QcRule::FlatRun, QcAction::Rejected, t));
+            }
+            if !v.is_empty() {
+                break;
+            }
         }
-        if let Some(t) = rules::spike(s, Some(&prof), (None, None), pr)
-            .or_else(|| outside.then(|| spike_at_level(s, &prof, pr)).flatten())
-        {
-            v.push((QcRule::Spike, QcAction::Rejected, t));
-        }
-        let e = prof.expected(s);
-        let sc = rules::day_scale(s, &e);
-        if let Some(t) = rules::flat_run(s, Some((&e, sc)), pr) {
-            v.push((QcRule::FlatRun, QcAction::Rejected, t));
+        // A holiday or a travel day around one has its own peaks (an early exodus, a late
+        // return) that no reference day type holds: a spike there is flagged, as any other
+        // unusual level on such a day (zero and flat runs are no traffic pattern and reject).
+        let holiday = st.calendar.holiday(*date);
+        if let Some(h) = holiday {
+            for x in v.iter_mut().filter(|x| x.0 == QcRule::Spike) {
+                x.1 = QcAction::Flagged;
+                x.2 = format!("{}; {h} (holiday list)", x.2);
+            }
         }
         if v.is_empty() {
             if let Some(step) = rules::level_step(s, &prof, pr.level_shift_min_side_hours, pr) {
@@ -750,7 +826,6 @@ pub(crate) fn check(
                     None => step.z >= p.level_shift_min_z,
                 };
                 // A holiday's level is its own (as on permanent counters): flagged.
-                let holiday = st.calendar.holiday(*date);
                 let structural = confirmed
                     && step.off_share() >= p.level_shift_min_off_share
                     && holiday.is_none();
@@ -842,32 +917,29 @@ pub(crate) fn check(
             }
         }
     }
-    // Day totals against the count's other complete days of the same kind.
+    // Day totals against the count's other days of the same kind at the same clock hours.
+    // Fault: a level step (tube moved, lane lost) whose off side is most of a partial first
+    // or last day, or the whole of a day, has no step inside the day to find; the count's
+    // other days at the hours the day has show it.
     for ((d, date), run) in &runs {
-        if !run.complete || rejected.contains(&(*d, *date)) {
+        if rejected.contains(&(*d, *date)) {
             continue;
         }
-        let mut others: Vec<f64> = runs
-            .iter()
-            .filter(|((dd, dt), o)| {
-                dd == d
-                    && dt != date
-                    && o.complete
-                    && is_working(*dt) == is_working(*date)
-                    && !rejected.contains(&(*dd, *dt))
-            })
-            .map(|(_, o)| o.s.total())
-            .collect();
-        if others.is_empty() {
+        let Some(c) = same_hours(&runs, &rejected, *d, *date) else {
+            continue;
+        };
+        if c.hours < p.short_min_hours {
             continue;
         }
-        let n = others.len();
-        let typical = median(&mut others);
-        let t = run.s.total();
-        if typical > 0.0
-            && ((t / typical) - 1.0).abs() > p.short_day_max_change
-            && (t - typical).abs() >= 3.0 * typical.sqrt()
+        if c.typical > 0.0
+            && ((c.total / c.typical) - 1.0).abs() > p.short_day_max_change
+            && (c.total - c.typical).abs() >= 3.0 * c.typical.sqrt()
         {
+            let what = if run.complete {
+                "daily total".to_string()
+            } else {
+                format!("total of the {} counted hours", c.hours)
+            };
             push(
                 &mut out,
                 *d,
@@ -875,10 +947,12 @@ pub(crate) fn check(
                 QcRule::CountDays,
                 QcAction::Flagged,
                 format!(
-                    "daily total {t:.0} {} is {:.0} % of the count's other {} day(s) ({typical:.0})",
+                    "{what} {:.0} {} is {:.0} % of the count's other {} day(s) at the same hours ({:.0})",
+                    c.total,
                     run.s.measure.unit(),
-                    t / typical * 100.0,
-                    n
+                    c.total / c.typical * 100.0,
+                    c.days,
+                    c.typical
                 ),
             );
         }
