@@ -43,6 +43,14 @@ fn month_starts(leap: bool) -> [(usize, &'static str); 12] {
     out
 }
 
+/// Day `d` (0-based) of `year` as `12 Mar`.
+fn day_name(year: i32, d: usize) -> String {
+    chrono::NaiveDate::from_yo_opt(year, d as u32 + 1).map_or_else(
+        || format!("day {}", d + 1),
+        |t| t.format("%-d %b").to_string(),
+    )
+}
+
 /// Runs of equal status: (first day, length, status).
 fn runs(days: &[DayStatus]) -> Vec<(usize, usize, DayStatus)> {
     let mut out: Vec<(usize, usize, DayStatus)> = Vec::new();
@@ -94,8 +102,12 @@ pub fn qc_calendar(rows: &[CalendarRow], year: i32) -> Markup {
                     @let yt = top + row_h * i as f64;
                     text.tick x=(c(left - 4.0)) y=(c(yt + 7.0)) text-anchor="end" { (r.station) }
                     @for (d0, n, s) in runs(&r.days) {
+                        // Tooltips on the exceptions only: a title per accepted run would
+                        // double the calendar's size and tell nothing the colour does not.
                         rect x=(c(x(d0))) y=(c(yt + 0.5)) width=(c(day_w * n as f64)) height=(c(row_h - 1.0)) fill=(colour(s)) {
-                            title { (r.station) ": " (n) " day" @if n > 1 { "s" } " " (word(s)) ", day " (d0 + 1) @if n > 1 { "–" (d0 + n) } " of " (year) }
+                            @if s != DayStatus::Accepted {
+                                title { (r.station) " " (day_name(year, d0)) @if n > 1 { " to " (day_name(year, d0 + n - 1)) } ": " (word(s)) }
+                            }
                         }
                     }
                 }
@@ -133,6 +145,15 @@ mod tests {
         )
         .into_string();
         assert_eq!(html.matches("<rect").count(), 1);
-        assert!(html.contains("365 days accepted"));
+        assert_eq!(day_name(2025, 59), "1 Mar");
+        let html = qc_calendar(
+            &[CalendarRow {
+                station: "CC1".into(),
+                days: vec![Accepted, Rejected, Rejected],
+            }],
+            2025,
+        )
+        .into_string();
+        assert!(html.contains("CC1 2 Jan to 3 Jan: rejected"), "{html}");
     }
 }

@@ -5,7 +5,7 @@
 use maud::{html, Markup};
 
 use super::data::{GroupCurves, Series};
-use super::svg::{c, finite_runs, nice_ceil};
+use super::svg::{c, finite_runs, nice_ceil, swatch};
 
 /// Ranks drawn on the ranked-hour curve: the design hours of common practice (30th, 100th)
 /// and the knee of the curve lie well inside.
@@ -70,7 +70,14 @@ fn panel(p: &Panel) -> Markup {
                     }
                 }
             }
-            p.key { (p.lines.iter().map(|l| l.0).collect::<Vec<_>>().join(", ")) }
+            p.key {
+                @for (k, (name, _, bold)) in p.lines.iter().enumerate() {
+                    span.key {
+                        (swatch(if *bold { "#111" } else { LINE_COLOURS[k % LINE_COLOURS.len()] }, if *bold { 2.4 } else { 1.6 }, 1.0, false))
+                        (name)
+                    }
+                }
+            }
         }
     }
 }
@@ -104,7 +111,7 @@ pub fn ranked_hour_panels(groups: &[GroupCurves]) -> Markup {
         div.panels.curves {
             @for g in groups.iter().filter(|g| !g.counters.is_empty()) {
                 (panel(&Panel {
-                    title: format!("Highest hours of the year, {}: two-way hourly volume in % of AADT by rank", g.group),
+                    title: format!("{}: busiest hours of the year, two-way volume in % of AADT by rank", g.group),
                     lines: g.counters.iter().map(|s| (
                         s.name.as_str(),
                         s.values.iter().take(RANKS_SHOWN).map(|k| 100.0 * k).collect(),
@@ -133,13 +140,14 @@ pub fn hourly_profile_panels(groups: &[GroupCurves]) -> Markup {
     html! {
         div.panels.curves {
             @for g in groups.iter().filter(|g| !g.counters.is_empty()) {
+                // A group mean of one counter is that counter's line: drawn only from two on.
                 @let mean: Vec<f64> = mean_curve(&g.counters).iter().map(|v| 100.0 * v).collect();
-                @let mut lines: Vec<(&str, Vec<f64>, bool)> = g.counters.iter()
+                @let lines: Vec<(&str, Vec<f64>, bool)> = g.counters.iter()
                     .map(|s| (s.name.as_str(), s.values.iter().map(|v| 100.0 * v).collect(), false))
+                    .chain((g.counters.len() > 1).then_some(("group mean", mean, true)))
                     .collect();
-                @let _ = lines.push(("group mean (bold)", mean, true));
                 (panel(&Panel {
-                    title: format!("Weekday hourly profile, {}: share of the daily volume per clock hour (%)", g.group),
+                    title: format!("{}: working-day share of the daily volume per clock hour (%)", g.group),
                     lines,
                     x_ticks: (0..24).step_by(3).map(|h| (h, format!("{h:02}h"))).collect(),
                     x_name: "clock hour (local time, start of the hour)",
@@ -179,11 +187,12 @@ mod tests {
         };
         let html = ranked_hour_panels(std::slice::from_ref(&g)).into_string();
         assert!(html.contains(
-            "Highest hours of the year, rural arterial: two-way hourly volume in % of AADT by rank"
+            "rural arterial: busiest hours of the year, two-way volume in % of AADT by rank"
         ));
         assert!(html.contains("30th hour"));
         let html = hourly_profile_panels(&[g]).into_string();
         assert!(html.contains("share of the daily volume per clock hour (%)"));
-        assert!(html.contains("group mean"));
+        // One counter: no separate group mean.
+        assert!(!html.contains("group mean"));
     }
 }

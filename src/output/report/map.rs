@@ -11,7 +11,7 @@
 //! reader can quote, each class holding about as many segments). One interval measure
 //! throughout: the relative width of the 95 % interval, (hi - lo) / AADT, in five classes
 //! (under 10 %, 10-25 %, 25-50 %, 50-100 %, 100 % or more). On the main map it sets the line
-//! opacity (1 down to 0.25, so a faint line is an uncertain estimate); a second, smaller
+//! opacity (1 down to 0.4, so a faint line is an uncertain estimate); a second, smaller
 //! panel colours the same lines by it. Segments estimated without a count on them are
 //! dashed. Permanent counters are filled circles, short-count stations open circles, both at
 //! the middle of their segment.
@@ -23,10 +23,10 @@ use super::svg::{c, swatch, thousands};
 
 /// Sequential colours for AADT classes, light (low volume) to dark (high volume): samples of
 /// the viridis colour map (matplotlib's perceptually uniform map, readable in greyscale and
-/// by colour-blind readers; hex values from memory), its lightest yellow left out so thin
+/// by colour-blind readers; hex values from memory), its lightest yellows left out so thin
 /// low-volume lines stay visible on white paper.
 const AADT_COLOURS: [&str; 7] = [
-    "#a0da39", "#4ac16d", "#1fa187", "#277f8e", "#365c8d", "#46327e", "#440154",
+    "#7ad151", "#3fbc73", "#1f9e89", "#26828e", "#31688e", "#3e4989", "#440154",
 ];
 
 /// Sequential colours for relative interval width bins (ColorBrewer Oranges).
@@ -39,7 +39,7 @@ const WIDTH_EDGES: [f64; 4] = [0.1, 0.25, 0.5, 1.0];
 const NO_DATA: &str = "#bdbdbd";
 
 /// Lowest line opacity: the most uncertain segments stay visible.
-pub const OPACITY_MIN: f64 = 0.25;
+pub const OPACITY_MIN: f64 = 0.4;
 
 /// Most AADT colour classes on the map.
 pub const CLASSES_MAX: usize = 7;
@@ -49,7 +49,7 @@ const KM_PER_DEGREE: f64 = 111.195;
 
 /// Line opacity per relative-width bin ([`WIDTH_EDGES`]): narrow intervals are solid, the
 /// widest class is drawn at [`OPACITY_MIN`].
-const WIDTH_OPACITY: [f64; 5] = [1.0, 0.8, 0.6, 0.42, OPACITY_MIN];
+const WIDTH_OPACITY: [f64; 5] = [1.0, 0.85, 0.7, 0.55, OPACITY_MIN];
 
 /// Relative width of a segment's 95 % interval, (hi - lo) / AADT, `None` when it cannot be
 /// computed. Both map panels use this one measure (the full width, not the half-width).
@@ -69,9 +69,9 @@ fn width_bin(w: f64) -> usize {
 /// ```
 /// use roadtally::output::report::map::interval_opacity;
 /// // 1,000 veh/day with a 95 % interval of 950 to 1,050: width 10 %, second bin.
-/// assert!((interval_opacity(1000.0, 950.0, 1050.0) - 0.8).abs() < 1e-12);
+/// assert!((interval_opacity(1000.0, 950.0, 1050.0) - 0.85).abs() < 1e-12);
 /// // 800 to 1,200: width 40 %, third bin (25 to 50 %).
-/// assert!((interval_opacity(1000.0, 800.0, 1200.0) - 0.6).abs() < 1e-12);
+/// assert!((interval_opacity(1000.0, 800.0, 1200.0) - 0.7).abs() < 1e-12);
 /// ```
 pub fn interval_opacity(aadt: f64, lo95: f64, hi95: f64) -> f64 {
     let w = (hi95 - lo95) / aadt;
@@ -366,7 +366,7 @@ pub fn network_map(segs: &[MapSegment], markers: &[MapMarker]) -> Markup {
                 line x1=(c(bx)) y1=(c(by)) x2=(c(bx + bar)) y2=(c(by)) stroke="#222" stroke-width="2" {}
                 line x1=(c(bx)) y1=(c(by - 4.0)) x2=(c(bx)) y2=(c(by)) stroke="#222" stroke-width="1" {}
                 line x1=(c(bx + bar)) y1=(c(by - 4.0)) x2=(c(bx + bar)) y2=(c(by)) stroke="#222" stroke-width="1" {}
-                text.tick x=(c(bx)) y=(c(by - 5.0)) { (format_km(bar_km)) }
+                text x=(c(bx)) font-size="12" y=(c(by - 5.0)) { (format_km(bar_km)) }
             }
         }
     };
@@ -378,14 +378,10 @@ pub fn network_map(segs: &[MapSegment], markers: &[MapMarker]) -> Markup {
                 @let (xa, ya) = side.place(s.from);
                 @let (xb, yb) = side.place(s.to);
                 @let w = relative_width(s);
+                // No tooltips here: the main map's tooltip already gives the interval, and
+                // 3,000 more titles would add a quarter of the page's size.
                 line x1=(c(xa)) y1=(c(ya)) x2=(c(xb)) y2=(c(yb)) stroke=(width_colour(w))
-                    stroke-width="2" {
-                    title {
-                        (s.label) ": 95 % interval width "
-                        (w.map_or("n/a".to_string(), |w| format!("{:.0} %", 100.0 * w)))
-                        " of AADT"
-                    }
-                }
+                    stroke-width="2" {}
             }
         }
     };
@@ -420,9 +416,9 @@ pub fn network_map(segs: &[MapSegment], markers: &[MapMarker]) -> Markup {
                     "without a count on the segment. Count locations sit at the middle of their segment."
                 }
                 ul.legend.aadt-legend {
-                    @for i in 0..k {
+                    @for (i, n) in in_class.iter().enumerate() {
                         li { (swatch(class_colour(i, k), class_width(i), 1.0, false))
-                            (class_label(i, &breaks)) span.count { " (" (in_class[i]) ")" } }
+                            (class_label(i, &breaks)) span.count { " (" (n) ")" } }
                     }
                     @if in_class.iter().sum::<usize>() < order.len() {
                         li { (swatch(NO_DATA, 1.0, 1.0, false)) "no figure" }
@@ -510,7 +506,7 @@ mod tests {
     fn opacity_follows_the_interval() {
         assert_relative_eq!(interval_opacity(1000.0, 1000.0, 1000.0), 1.0);
         // Width 40 % lies in the 25-50 % class, the same class the width panel colours.
-        assert_relative_eq!(interval_opacity(1000.0, 800.0, 1200.0), 0.6);
+        assert_relative_eq!(interval_opacity(1000.0, 800.0, 1200.0), 0.7);
         assert_eq!(width_bin(0.4), 2);
         assert_eq!(width_colour(Some(0.4)), WIDTH_COLOURS[2]);
         assert_relative_eq!(interval_opacity(1000.0, 0.0, 5000.0), OPACITY_MIN);

@@ -214,14 +214,14 @@ fn results(t: &Table) -> Markup {
 const SEGMENT_COLUMNS: [(&str, &str, &str, bool); 11] = [
     ("segment_id", "Segment", "", false),
     ("route", "Route", "", false),
-    ("class", "Class", "functional class, area", false),
+    ("class", "Class", "class, area", false),
     ("group", "Factor group", "", false),
     ("basis", "Basis", "", false),
     ("aadt", "AADT", "veh/day", true),
     ("aadt_lo95", "95 % interval", "veh/day", true),
     ("heavy_pct", "Heavy vehicles", "% of AADT", true),
-    ("k_factor", "K-factor", "design hour ÷ AADT", true),
-    ("d_factor", "D-factor", "heavier direction's share", true),
+    ("k_factor", "K", "factor", true),
+    ("d_factor", "D", "factor", true),
     ("length_km", "Length", "km", true),
 ];
 
@@ -271,7 +271,7 @@ fn segment_table(segs: &[MapSegment]) -> Markup {
             button #seg-prev type="button" { "← previous" }
             button #seg-next type="button" { "next →" }
             span #seg-status aria-live="polite" {}
-            span.note { " Click a heading to sort, a row to show it on the map." }
+            span.note { " Click a heading to sort, a row to show it on the map. K: design-hour share of AADT; D: the heavier direction's share of the design hour." }
         }
         div.table-wrap {
             table #seg-table .segments {

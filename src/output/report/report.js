@@ -93,7 +93,7 @@
     add("line", { x1: x, y1: y, x2: x + len, y2: y, stroke: "#222", "stroke-width": 2 });
     add("line", { x1: x, y1: y - 4 * px, x2: x, y2: y, stroke: "#222", "stroke-width": 1 });
     add("line", { x1: x + len, y1: y - 4 * px, x2: x + len, y2: y, stroke: "#222", "stroke-width": 1 });
-    add("text", { x: x, y: y - 5 * px, "font-size": 9 * px, fill: "#333" }, km >= 1 ? km + " km" : Math.round(km * 1000) + " m");
+    add("text", { x: x, y: y - 5 * px, "font-size": 12 * px, fill: "#333" }, km >= 1 ? km + " km" : Math.round(km * 1000) + " m");
   }
   function ends(i) {
     var l = lines[i];
@@ -125,8 +125,9 @@
       y0 = Math.min(y0, p[1], p[3]); y1 = Math.max(y1, p[1], p[3]);
     });
     if (!isFinite(x0)) { return; }
-    var w = Math.max(x1 - x0, (y1 - y0) * full.w / full.h) * 1.6;
-    w = Math.max(w, 3 * upk, full.w / 60);
+    // Room around the match: four times its extent, at least a quarter of the network.
+    var w = Math.max(x1 - x0, (y1 - y0) * full.w / full.h) * 4;
+    w = Math.max(w, full.w / 4);
     setView({ x: (x0 + x1) / 2 - w / 2, y: (y0 + y1) / 2 - w * full.h / full.w / 2, w: w, h: w * full.h / full.w });
   }
   function row(dl, term, value, key) {
