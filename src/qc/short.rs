@@ -18,22 +18,26 @@
 //!    median of the robust levels of its other days, its other direction and, from history,
 //!    the segment's AADT; the day itself counts only when it carries traffic), so that a dead
 //!    day cannot set its own expectation.
-//! 2. Against that reference, on the longest run of fully covered hours of each day (at
-//!    least [`QcParams::short_min_hours`]; partial first and last days too, since expansion
-//!    uses their hours): `zero_run`, `spike`, `flat_run` and `level_shift`, the permanent
-//!    counters' rules, with [`QcParams::short_shape_noise_share`] for the extra misfit of
-//!    another road's shape and [`QcParams::short_level_shift_min_z`] /
+//! 2. Against that reference, on every run of fully covered hours of each day of at least
+//!    [`QcParams::short_min_hours`] (a missed hour splits a day in two, and a fault may sit
+//!    in either part; partial first and last days too, since expansion uses their hours):
+//!    `zero_run`, `spike`, `flat_run` on every run, `level_shift` on the longest, the
+//!    permanent counters' rules, with [`QcParams::short_shape_noise_share`] for the extra
+//!    misfit of another road's shape and [`QcParams::short_level_shift_min_z`] /
 //!    [`QcParams::short_level_shift_min_log_ratio`] for level steps. Zero runs, spikes and
 //!    flat runs reject; a level step rejects when its off side holds
 //!    [`QcParams::level_shift_min_off_share`] of the day, else it is flagged (an event, as on
 //!    permanent counters). On a day of the `[qc] holidays` calendar (a holiday or a travel
-//!    day around one) every day type's profile may be the reference and a level step is
-//!    flagged, never rejected.
+//!    day around one) every day type's profile may be the reference, and a level step or a
+//!    spike is flagged, never rejected (holiday eves have their own peaks).
 //! 3. **The count's other direction and other days** (references b and c):
 //!    `swapped_directions` compares a working day's fwd share, clock hour by clock hour, with
-//!    the fwd share of the count's other working days at the same hours; `count_days` flags a
-//!    complete day whose total differs from the count's other complete days of its kind
-//!    (working or weekend) by more than [`QcParams::short_day_max_change`].
+//!    the fwd share of the count's other working days at the same hours, and rejects the day
+//!    only when those days hold at least twice its hours (else either may be the swapped
+//!    one: flagged); `count_days` flags a day (complete or partial) whose total over its
+//!    hours differs from the mean of the count's other days of its kind (working or weekend)
+//!    at the same clock hours by more than [`QcParams::short_day_max_change`] (a level step
+//!    whose off side is most of a partial day has no step inside the day to find).
 //! 4. **The segment's history** (reference d): `history_level` flags the count's complete
 //!    days when their mean two-way total is beyond [`QcParams::short_history_max_ratio`] of
 //!    the latest published AADT of the segment either way (a loose check: season, weekday
@@ -529,7 +533,8 @@ fn own_days_step(
 }
 
 /// A direction-day's total against the mean of the count's other accepted days of its kind
-/// (working or weekend) over the clock hours both have.
+/// (working or weekend) over the clock hours both have. A complete day is held to the other
+/// complete days only (a partial day's few hours are a noisy reference for a whole day).
 struct SameHours {
     total: f64,
     typical: f64,
@@ -543,13 +548,15 @@ fn same_hours(
     d: Direction,
     date: NaiveDate,
 ) -> Option<SameHours> {
-    let s = &runs.get(&(d, date))?.s;
+    let run = runs.get(&(d, date))?;
+    let s = &run.s;
     let mut sum = [0.0f64; 24];
     let mut n = [0usize; 24];
     let mut days = 0;
     for ((dd, dt), o) in runs {
         if *dd != d
             || *dt == date
+            || (run.complete && !o.complete)
             || is_working(*dt) != is_working(date)
             || rejected.contains(&(*dd, *dt))
         {
