@@ -502,12 +502,7 @@ fn qc_calendar(r: &Results) -> Vec<CalendarRow> {
     } else {
         365
     };
-    let mut flagged = std::collections::HashSet::new();
-    for f in &r.qc.findings {
-        if !r.qc.is_rejected(f.station, f.date, f.direction) {
-            flagged.insert((f.station, f.date, f.direction));
-        }
-    }
+    let flagged = r.qc.flagged_days();
     let mut rows = Vec::new();
     for (si, st) in r.data.stations.stations.iter().enumerate() {
         if st.kind != crate::model::StationKind::Continuous {

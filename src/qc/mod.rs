@@ -253,6 +253,23 @@ impl QcOutput {
     pub fn is_rejected(&self, station: usize, date: NaiveDate, d: Direction) -> bool {
         self.rejected.contains(&(station, date, d))
     }
+
+    /// Direction-days with a finding that were kept (flagged, not rejected).
+    pub fn flagged_days(&self) -> HashSet<(usize, NaiveDate, Direction)> {
+        flagged_days(&self.findings, &self.rejected)
+    }
+}
+
+/// The direction-days of `findings` not in `rejected`.
+fn flagged_days(
+    findings: &[QcFinding],
+    rejected: &HashSet<(usize, NaiveDate, Direction)>,
+) -> HashSet<(usize, NaiveDate, Direction)> {
+    findings
+        .iter()
+        .map(|f| (f.station, f.date, f.direction))
+        .filter(|k| !rejected.contains(k))
+        .collect()
 }
 
 /// What quality control reads.
@@ -379,11 +396,7 @@ pub fn run(input: &QcInput, params: &QcParams) -> QcOutput {
         .filter(|f| f.action == QcAction::Rejected)
         .map(|f| (f.station, f.date, f.direction))
         .collect();
-    let flagged: HashSet<(usize, NaiveDate, Direction)> = findings
-        .iter()
-        .map(|f| (f.station, f.date, f.direction))
-        .filter(|k| !rejected.contains(k))
-        .collect();
+    let flagged = flagged_days(&findings, &rejected);
     let mut by_rule: BTreeMap<QcRule, RuleCount> = QcRule::ALL
         .iter()
         .map(|r| (*r, RuleCount::default()))
